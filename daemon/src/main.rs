@@ -1,0 +1,5 @@
+//! The `veer` command.
+
+mod decode;
+
+fn main() {}
