@@ -1,0 +1,164 @@
+//! The command line, declared with clap's derive.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+/// veer: finds critical speeds in run-ups and coast-downs and checks each machine's separation
+/// margins. veer advises; it is not a machinery protection system.
+#[derive(Debug, Parser)]
+#[command(name = "veer", version, about, long_about = None)]
+pub(crate) struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub(crate) enum Command {
+    /// Simulate a machine of the demo plant through a run-up and coast-down and analyse it.
+    Demo(DemoArgs),
+    /// Analyse a recording (CSV or WAV): events, critical speeds, AF, damping and margins.
+    Analyze(AnalyzeArgs),
+    /// Write a synthetic recording (CSV or WAV) of a simulated machine.
+    Simulate(SimulateArgs),
+}
+
+/// Which edge of the tach pulse counts.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub(crate) enum EdgeArg {
+    /// The signal rising through the trigger level.
+    Rising,
+    /// The signal falling through the trigger level.
+    Falling,
+}
+
+/// Options that shape the analysis, shared by `analyze` and `demo`.
+#[derive(Debug, Args, Clone)]
+pub(crate) struct TrackArgs {
+    /// Tach pulses per revolution (tooth positions, counting a gap's missing teeth).
+    #[arg(long, default_value_t = 1)]
+    pub ppr: u32,
+    /// Teeth missing on purpose at the reference (1 for a 60-1 wheel).
+    #[arg(long, default_value_t = 0)]
+    pub gap_teeth: u32,
+    /// Which tach edge marks a pulse.
+    #[arg(long, value_enum, default_value_t = EdgeArg::Rising)]
+    pub edge: EdgeArg,
+    /// Fixed tach trigger level (otherwise learnt from the signal).
+    #[arg(long)]
+    pub tach_level: Option<f32>,
+    /// Lowest plausible speed, r/min.
+    #[arg(long, default_value_t = 30.0)]
+    pub min_speed: f64,
+    /// Highest plausible speed, r/min.
+    #[arg(long, default_value_t = 60_000.0)]
+    pub max_speed: f64,
+    /// Unit of the vibration channels after --scale: um, mil, mm/s, in/s, g, m/s2 (one, or one per channel).
+    #[arg(long, default_value = "um", value_delimiter = ',')]
+    pub units: Vec<String>,
+    /// How amplitudes are stated: pk-pk, pk or rms (default: the trade's usual one for the unit).
+    #[arg(long)]
+    pub detection: Option<String>,
+    /// Engineering units per file unit (one, or one per channel).
+    #[arg(long, default_value = "1", value_delimiter = ',')]
+    pub scale: Vec<f64>,
+    /// Orders to compute as vectors.
+    #[arg(long, default_value = "1,2", value_delimiter = ',')]
+    pub orders: Vec<u32>,
+    /// Revolutions per vector.
+    #[arg(long, default_value_t = 1)]
+    pub revs_per_vector: u32,
+    /// Slow-roll compensation: auto, off, or a speed window MIN:MAX in r/min.
+    #[arg(long, default_value = "auto")]
+    pub slow_roll: String,
+    /// Operating range MIN:MAX in r/min (minimum operating speed : maximum continuous speed), to judge margins.
+    #[arg(long)]
+    pub range: Option<String>,
+    /// Margin rule: api (API 684 2nd ed. / API 617 7th ed.), api-1996 (the older edition), or a percentage.
+    #[arg(long, default_value = "api")]
+    pub margin: String,
+    /// Warning band, points before the required margin.
+    #[arg(long, default_value_t = 5.0)]
+    pub warn_band: f64,
+    /// Skip the order map (order spectra).
+    #[arg(long)]
+    pub no_order_map: bool,
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct AnalyzeArgs {
+    /// The recording: CSV with a header row, or WAV.
+    pub file: PathBuf,
+    /// Tach column: header name or 0-based index.
+    #[arg(long)]
+    pub tach: String,
+    /// Vibration columns: names or 0-based indices, comma separated.
+    #[arg(long, value_delimiter = ',', required = true)]
+    pub vib: Vec<String>,
+    /// Sample rate, Hz (when the CSV has no time column, or to override the file).
+    #[arg(long)]
+    pub rate: Option<f64>,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Print throughput figures (time, samples/s, MB/s, peak memory) on stderr.
+    #[arg(long)]
+    pub bench: bool,
+    #[command(flatten)]
+    pub track: TrackArgs,
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct SimulateArgs {
+    /// Output file; the format follows the extension (.csv or .wav).
+    #[arg(long, short)]
+    pub out: PathBuf,
+    /// Machine of the demo plant to simulate (see `veer simulate --list`).
+    #[arg(long, default_value = "comp-3")]
+    pub machine: String,
+    /// List the machines and exit.
+    #[arg(long)]
+    pub list: bool,
+    /// Speed profile as TIME:RPM breakpoints, e.g. 0:300,10:300,70:4500,80:4500,160:0.
+    #[arg(long)]
+    pub profile: Option<String>,
+    /// Sample rate, Hz.
+    #[arg(long, default_value_t = 25_600.0)]
+    pub rate: f64,
+    /// Tach pulses per revolution.
+    #[arg(long)]
+    pub ppr: Option<u32>,
+    /// Tach teeth missing at the reference (a 60-1 wheel: --ppr 60 --gap-teeth 1).
+    #[arg(long, default_value_t = 0)]
+    pub gap_teeth: u32,
+    /// R.m.s. jitter of the tach edges, µs.
+    #[arg(long, default_value_t = 0.0)]
+    pub jitter_us: f64,
+    /// Noise r.m.s. added to every vibration channel, channel units.
+    #[arg(long)]
+    pub noise: Option<f64>,
+    /// 1X runout amplitude (peak), channel units.
+    #[arg(long)]
+    pub runout: Option<f64>,
+    /// A stray fixed-frequency tone HZ:AMPLITUDE added to every channel.
+    #[arg(long)]
+    pub tone: Option<String>,
+    /// Seed of noise and jitter.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// WAV sample format: f32 or pcm16.
+    #[arg(long, default_value = "f32")]
+    pub wav_format: String,
+    /// For pcm16 WAV: the sample value stored as full scale (values beyond are clipped).
+    #[arg(long, default_value_t = 1000.0)]
+    pub full_scale: f32,
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct DemoArgs {
+    /// Machine of the demo plant.
+    #[arg(long, default_value = "tg-1")]
+    pub machine: String,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}

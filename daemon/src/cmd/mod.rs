@@ -1,0 +1,25 @@
+//! One module per subcommand.
+
+mod analyze;
+mod demo;
+mod simulate;
+
+use crate::cli::{Cli, Command};
+use anyhow::Result;
+
+/// Runs the parsed command.
+pub(crate) fn run(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Analyze(a) => analyze::run(a),
+        Command::Simulate(a) => simulate::run(a),
+        Command::Demo(a) => demo::run(a),
+    }
+}
+
+/// Peak resident memory of this process, MiB, where the system reports it (Linux).
+pub(crate) fn peak_memory_mib() -> Option<f64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kib: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib / 1024.0)
+}

@@ -1,0 +1,182 @@
+//! `veer simulate`: writes a synthetic recording of a demo-plant machine.
+
+use crate::cli::SimulateArgs;
+use crate::decode::{CsvWriter, WavFormat, WavWriter};
+use crate::plant;
+use anyhow::{anyhow, bail, Context, Result};
+use std::path::Path;
+use veer_tracker::sim::{SimConfig, Simulator, SpeedProfile, TachSim, Tone};
+
+/// Parses `T:RPM,T:RPM,...`.
+fn parse_profile(s: &str) -> Result<SpeedProfile> {
+    let mut points = Vec::new();
+    for part in s.split(',') {
+        let (t, v) = part
+            .split_once(':')
+            .ok_or_else(|| anyhow!("--profile: `{part}` is not TIME:RPM"))?;
+        let t: f64 = t.trim().parse().with_context(|| format!("--profile: time `{t}`"))?;
+        let v: f64 = v.trim().parse().with_context(|| format!("--profile: speed `{v}`"))?;
+        points.push((t, v));
+    }
+    SpeedProfile::new(points).map_err(|e| anyhow!("--profile: {e}"))
+}
+
+/// Builds the simulation a `simulate` command asks for.
+pub(crate) fn sim_config(a: &SimulateArgs) -> Result<SimConfig> {
+    let m = plant::machine(&a.machine)?;
+    let profile = match &a.profile {
+        Some(p) => parse_profile(p)?,
+        None => plant::profile(&m)?,
+    };
+    let mut channels = m.channels.clone();
+    for c in &mut channels {
+        if let Some(n) = a.noise {
+            c.noise_rms = n;
+        }
+        if let Some(r) = a.runout {
+            c.runout = r;
+        }
+        if let Some(t) = &a.tone {
+            let (f, amp) = t
+                .split_once(':')
+                .ok_or_else(|| anyhow!("--tone: `{t}` is not HZ:AMPLITUDE"))?;
+            c.tones.push(Tone {
+                freq_hz: f.trim().parse().with_context(|| format!("--tone: frequency `{f}`"))?,
+                amplitude: amp.trim().parse().with_context(|| format!("--tone: amplitude `{amp}`"))?,
+            });
+        }
+    }
+    let ppr = a.ppr.unwrap_or(m.tach.ppr);
+    if a.gap_teeth >= ppr {
+        bail!("--gap-teeth {} leaves no tooth on a {ppr}-tooth wheel", a.gap_teeth);
+    }
+    // A gap wheel leaves out the last teeth before the reference, so the first tooth after the gap
+    // is tooth 0.
+    let missing = (ppr - a.gap_teeth..ppr).collect();
+    let cfg = SimConfig {
+        sample_rate: a.rate,
+        profile,
+        tach: TachSim {
+            ppr,
+            missing,
+            jitter_s: a.jitter_us * 1e-6,
+            ..m.tach.clone()
+        },
+        channels,
+        seed: a.seed,
+        start_at_rest: false,
+    };
+    cfg.validate().map_err(|e| anyhow!("{e}"))?;
+    Ok(cfg)
+}
+
+pub(crate) fn run(a: SimulateArgs) -> Result<()> {
+    if a.list {
+        for m in plant::machines() {
+            println!(
+                "{:8} {} (operating {:.0}-{:.0} r/min, {} channel(s), {})",
+                m.id,
+                m.name,
+                m.min_operating_rpm,
+                m.max_continuous_rpm,
+                m.channels.len(),
+                m.unit
+            );
+        }
+        return Ok(());
+    }
+    let cfg = sim_config(&a)?;
+    let mut sim = Simulator::new(cfg).map_err(|e| anyhow!("{e}"))?;
+    let names = sim.channel_names();
+    let frames = write(&mut sim, &names, &a.out, &a)?;
+    eprintln!(
+        "wrote {} ({} frames, {} channels: {}, {} Hz)",
+        a.out.display(),
+        frames,
+        names.len(),
+        names.join(", "),
+        sim.sample_rate()
+    );
+    Ok(())
+}
+
+/// Splits interleaved frames into one column per channel.
+fn deinterleave(inter: &[f32], cols: &mut [Vec<f32>]) {
+    for c in cols.iter_mut() {
+        c.clear();
+    }
+    let n = cols.len();
+    for frame in inter.chunks_exact(n) {
+        for (c, &x) in cols.iter_mut().zip(frame) {
+            c.push(x);
+        }
+    }
+}
+
+/// Streams the simulation into the file, CSV or WAV by extension.
+fn write(sim: &mut Simulator, names: &[String], out: &Path, a: &SimulateArgs) -> Result<u64> {
+    let ext = out
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .unwrap_or_default();
+    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+    let mut inter = Vec::with_capacity(65_536 * names.len());
+    let mut cols: Vec<Vec<f32>> = vec![Vec::with_capacity(65_536); names.len()];
+    let mut next = |sim: &mut Simulator, cols: &mut [Vec<f32>]| {
+        inter.clear();
+        let n = sim.next_block(65_536, &mut inter);
+        deinterleave(&inter, cols);
+        n
+    };
+    let mut frames = 0u64;
+    match ext.as_str() {
+        "csv" => {
+            let mut w = CsvWriter::create(out, &refs, sim.sample_rate(), 0.0)?;
+            loop {
+                let n = next(sim, &mut cols);
+                if n == 0 {
+                    break;
+                }
+                let views: Vec<&[f32]> = cols.iter().map(|c| c.as_slice()).collect();
+                w.write_frames(&views)?;
+                frames += n as u64;
+            }
+            w.finish()?;
+        }
+        "wav" => {
+            let format = match a.wav_format.as_str() {
+                "f32" | "float" | "float32" => WavFormat::Float32,
+                "pcm16" | "16" => WavFormat::Pcm16 {
+                    full_scale: a.full_scale,
+                },
+                other => bail!("--wav-format `{other}`: use f32 or pcm16"),
+            };
+            let channels = u16::try_from(names.len()).context("too many channels for WAV")?;
+            let rate = sim.sample_rate();
+            if rate.fract() != 0.0 || rate > f64::from(u32::MAX) {
+                bail!("--rate {rate}: a WAV file needs a whole number of samples per second");
+            }
+            let mut w = WavWriter::create(out, channels, rate as u32, format)?;
+            loop {
+                let n = next(sim, &mut cols);
+                if n == 0 {
+                    break;
+                }
+                let views: Vec<&[f32]> = cols.iter().map(|c| c.as_slice()).collect();
+                w.write_frames(&views)?;
+                frames += n as u64;
+            }
+            if w.clipped() > 0 {
+                eprintln!(
+                    "warning: {} samples clipped at --full-scale {}",
+                    w.clipped(),
+                    a.full_scale
+                );
+            }
+            w.finish()?;
+        }
+        _ => bail!("{}: the extension must be .csv or .wav", out.display()),
+    }
+    Ok(frames)
+}
