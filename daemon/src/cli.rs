@@ -110,8 +110,8 @@ pub(crate) struct AnalyzeArgs {
 #[derive(Debug, Args)]
 pub(crate) struct SimulateArgs {
     /// Output file; the format follows the extension (.csv or .wav).
-    #[arg(long, short)]
-    pub out: PathBuf,
+    #[arg(long, short, required_unless_present = "list")]
+    pub out: Option<PathBuf>,
     /// Machine of the demo plant to simulate (see `veer simulate --list`).
     #[arg(long, default_value = "comp-3")]
     pub machine: String,

@@ -19,9 +19,11 @@ pub(crate) fn run(a: AnalyzeArgs) -> Result<()> {
     let cfg = engine_config(&a.track, &names)?;
     let analysis = analyze_recording(&mut rec, tach, &vib, cfg)?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&json::document(&analysis))?);
+        let mut text = serde_json::to_string_pretty(&json::document(&analysis))?;
+        text.push('\n');
+        super::print_out(&text)?;
     } else {
-        print!("{}", table::render(&analysis));
+        super::print_out(&table::render(&analysis))?;
     }
     if a.bench {
         let samples = analysis.duration_s * analysis.sample_rate * (vib.len() + 1) as f64;

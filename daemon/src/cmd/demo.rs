@@ -44,9 +44,11 @@ pub(crate) fn run(a: DemoArgs) -> Result<()> {
     let label = format!("demo: {} ({}), simulated", m.name, m.id);
     let analysis = analyze_simulation(sim, cfg, &label)?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&json::document(&analysis))?);
+        let mut text = serde_json::to_string_pretty(&json::document(&analysis))?;
+        text.push('\n');
+        super::print_out(&text)?;
     } else {
-        print!("{}", table::render(&analysis));
+        super::print_out(&table::render(&analysis))?;
         eprintln!("(simulated and analysed in {:.2} s)", analysis.elapsed_s);
     }
     Ok(())

@@ -16,6 +16,18 @@ pub(crate) fn run(cli: Cli) -> Result<()> {
     }
 }
 
+/// Writes to stdout; a reader that went away (`veer … | head`) ends the output quietly instead of
+/// being an error.
+pub(crate) fn print_out(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => Err(anyhow::anyhow!("stdout: {e}")),
+    }
+}
+
 /// Peak resident memory of this process, MiB, where the system reports it (Linux).
 pub(crate) fn peak_memory_mib() -> Option<f64> {
     let status = std::fs::read_to_string("/proc/self/status").ok()?;

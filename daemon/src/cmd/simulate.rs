@@ -72,26 +72,31 @@ pub(crate) fn sim_config(a: &SimulateArgs) -> Result<SimConfig> {
 
 pub(crate) fn run(a: SimulateArgs) -> Result<()> {
     if a.list {
+        let mut text = String::new();
         for m in plant::machines() {
-            println!(
-                "{:8} {} (operating {:.0}-{:.0} r/min, {} channel(s), {})",
+            text.push_str(&format!(
+                "{:8} {} (operating {:.0}-{:.0} r/min, {} channel(s), {})\n",
                 m.id,
                 m.name,
                 m.min_operating_rpm,
                 m.max_continuous_rpm,
                 m.channels.len(),
                 m.unit
-            );
+            ));
         }
-        return Ok(());
+        return super::print_out(&text);
     }
+    let out = a
+        .out
+        .clone()
+        .ok_or_else(|| anyhow!("--out FILE is needed (or --list)"))?;
     let cfg = sim_config(&a)?;
     let mut sim = Simulator::new(cfg).map_err(|e| anyhow!("{e}"))?;
     let names = sim.channel_names();
-    let frames = write(&mut sim, &names, &a.out, &a)?;
+    let frames = write(&mut sim, &names, &out, &a)?;
     eprintln!(
         "wrote {} ({} frames, {} channels: {}, {} Hz)",
-        a.out.display(),
+        out.display(),
         frames,
         names.len(),
         names.join(", "),

@@ -76,6 +76,10 @@ pub struct EngineConfig {
     pub min_sweep_share: f64,
     /// Most order-map rows kept per event and channel; beyond it neighbouring rows are merged.
     pub max_map_rows: usize,
+    /// Speed change between order-map rows, percent: rows are taken by speed step on sweeps.
+    pub map_step_pct: f64,
+    /// Time between order-map rows at steady speed, s.
+    pub map_interval_s: f64,
     /// Margin rule and operating range, if known.
     pub margins: Option<MarginSettings>,
 }
@@ -93,6 +97,8 @@ impl Default for EngineConfig {
             bin_pct: 0.2,
             min_sweep_share: 0.3,
             max_map_rows: 1024,
+            map_step_pct: 0.5,
+            map_interval_s: 10.0,
             margins: None,
         }
     }
@@ -168,6 +174,12 @@ impl EngineConfig {
         if !(self.min_sweep_share > 0.0 && self.min_sweep_share < 1.0) {
             return Err(invalid("min_sweep_share", "must be between 0 and 1"));
         }
+        if !(self.map_step_pct > 0.0 && self.map_step_pct <= 50.0) {
+            return Err(invalid("map_step_pct", "must be between 0 and 50 percent"));
+        }
+        if !(self.map_interval_s > 0.0) {
+            return Err(invalid("map_interval_s", "must be positive"));
+        }
         if self.max_map_rows < 2 {
             return Err(invalid("max_map_rows", "must be at least 2"));
         }
@@ -215,8 +227,8 @@ impl fmt::Display for EngineConfig {
         match &self.order_map {
             Some(m) => writeln!(
                 f,
-                "order map: {} samples/rev, {} revs/block, orders to {}",
-                m.samples_per_rev, m.revs_per_block, m.max_order
+                "order map: {} samples/rev, {} revs/block, orders to {}, a row every {} % of speed or {} s",
+                m.samples_per_rev, m.revs_per_block, m.max_order, self.map_step_pct, self.map_interval_s
             )?,
             None => writeln!(f, "order map: off")?,
         }

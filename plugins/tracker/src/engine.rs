@@ -24,6 +24,11 @@ use crate::vectors::{RevVectors, VectorCalculator};
 use std::collections::VecDeque;
 use thiserror::Error;
 
+/// Seconds of history kept beyond the state tracker's windows, to seed a sweep once recognised.
+const RECENT_EXTRA_S: f64 = 40.0;
+/// Most revolutions of history kept.
+const RECENT_MAX_POINTS: usize = 20_000;
+
 /// The direction of a sweep.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum EventKind {
@@ -259,6 +264,8 @@ pub struct Engine {
     slow_roll_window: MeanVectors,
     in_window: bool,
     losses_seen: u64,
+    /// Speed and time of the last order-map row.
+    last_row: Option<(f64, f64)>,
     emit_revolutions: bool,
     updates: Vec<Update>,
     stats: EngineStats,
@@ -312,6 +319,7 @@ impl Engine {
             slow_roll_window: MeanVectors::default(),
             in_window: false,
             losses_seen: 0,
+            last_row: None,
             emit_revolutions: false,
             updates: Vec::new(),
             stats: EngineStats::default(),
@@ -432,8 +440,16 @@ impl Engine {
         let first_time = self.t0 + self.buf_start as f64 / self.fs;
         let slices: Vec<&[f32]> = self.buf.iter().map(|b| b.as_slice()).collect();
         let vectors = self.vectors.process(rev, first_time, self.fs, &slices);
+        let wanted = self.maps.first().is_some_and(|m| m.busy()) || self.row_wanted(rev);
         for c in 0..self.maps.len() {
+            if !wanted {
+                self.maps[c].skip_revolution(rev);
+                continue;
+            }
             if let Some(mut spec) = self.maps[c].push_revolution(rev) {
+                if c == 0 {
+                    self.last_row = Some((spec.speed_rpm, spec.time_s));
+                }
                 let f = self.factor[c] as f32;
                 for a in &mut spec.amplitudes {
                     *a *= f.abs();
@@ -445,6 +461,18 @@ impl Engine {
         }
         if let Some(v) = vectors {
             self.on_vectors(v);
+        }
+    }
+
+    /// Whether an order-map row should start at this revolution: rows are taken by speed step
+    /// (like a speed-triggered analyser) and, at steady speed, by time interval.
+    fn row_wanted(&self, rev: &Revolution) -> bool {
+        match self.last_row {
+            None => true,
+            Some((speed, time)) => {
+                (rev.mean_rpm() / speed).ln().abs() >= self.cfg.map_step_pct / 100.0
+                    || rev.mid_time() - time >= self.cfg.map_interval_s
+            }
         }
     }
 
@@ -482,10 +510,12 @@ impl Engine {
                 vectors: point.v.clone(),
             }));
         }
-        let keep = self.cfg.states.slope_window_s + self.cfg.states.hold_s + 1.0;
+        // Long enough to hold the start of a slow sweep, which is only recognised once the speed
+        // has moved a few percent; capped in points so that fast machines stay bounded too.
+        let keep = self.cfg.states.slope_window_s + self.cfg.states.hold_s + RECENT_EXTRA_S;
         self.recent.push_back(point);
         while let (Some(f), Some(b)) = (self.recent.front(), self.recent.back()) {
-            if b.time_s - f.time_s > keep {
+            if b.time_s - f.time_s > keep || self.recent.len() > RECENT_MAX_POINTS {
                 self.recent.pop_front();
             } else {
                 break;

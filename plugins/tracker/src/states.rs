@@ -1,10 +1,14 @@
 //! Machine states from the shaft speed: stopped, slow roll, speeding up, steady, slowing down.
 //!
 //! The slope of speed is a least-squares line over a sliding time window, so a single noisy
-//! revolution cannot flip the state; entering a sweep needs the slope above one threshold and
-//! leaving it needs the slope below a lower one for a hold time (hysteresis on both speed and slope).
+//! revolution cannot flip the state; entering a sweep needs the slope above one threshold *and* the
+//! speed to have left the settled speed by a few percent, and leaving it needs the slope below a
+//! lower threshold for a hold time (hysteresis on both speed and slope). The distance test is what
+//! keeps the ordinary wander of a governed machine (a fraction of a percent) from ever looking like
+//! a sweep, while the low slope threshold still catches the slow coast-down of a large rotor.
 //! Thresholds are relative to speed, because 5 rpm/s is a run-up for a 300 rpm fan and a wobble
-//! for a 12 000 rpm compressor.
+//! for a 12 000 rpm compressor. A sweep is dated from the last moment the speed was still near the
+//! settled speed, so the event holds the whole transition.
 
 use std::collections::VecDeque;
 use thiserror::Error;
@@ -56,6 +60,10 @@ pub struct StateConfig {
     pub sweep_exit_pct_s: f64,
     /// Slope that starts a sweep whatever the speed, r/min per second (guards very low speeds).
     pub sweep_enter_min_rpm_s: f64,
+    /// How far the speed must leave the settled speed before a sweep starts, percent.
+    pub sweep_enter_delta_pct: f64,
+    /// Time constant with which the settled speed follows a slow drift, s.
+    pub settle_tau_s: f64,
     /// How long the slope must stay below the exit threshold before the sweep ends, s.
     pub hold_s: f64,
 }
@@ -65,9 +73,11 @@ impl Default for StateConfig {
         Self {
             slow_roll_max_rpm: 400.0,
             slope_window_s: 2.0,
-            sweep_enter_pct_s: 0.5,
-            sweep_exit_pct_s: 0.2,
-            sweep_enter_min_rpm_s: 3.0,
+            sweep_enter_pct_s: 0.03,
+            sweep_exit_pct_s: 0.01,
+            sweep_enter_min_rpm_s: 0.5,
+            sweep_enter_delta_pct: 2.0,
+            settle_tau_s: 120.0,
             hold_s: 3.0,
         }
     }
@@ -106,6 +116,12 @@ impl StateConfig {
         if !(self.sweep_enter_min_rpm_s >= 0.0) {
             return bad("sweep_enter_min_rpm_s", "must not be negative");
         }
+        if !(self.sweep_enter_delta_pct > 0.0 && self.sweep_enter_delta_pct < 50.0) {
+            return bad("sweep_enter_delta_pct", "must be between 0 and 50 percent");
+        }
+        if !(self.settle_tau_s > 0.0) {
+            return bad("settle_tau_s", "must be positive");
+        }
         if !(self.hold_s >= 0.0) {
             return bad("hold_s", "must not be negative");
         }
@@ -135,6 +151,10 @@ pub struct StateTracker {
     /// Since when the slope has been below the exit threshold during a sweep.
     calm_since: Option<f64>,
     slope: f64,
+    /// The settled speed and the time it was last updated (while steady or in slow roll).
+    settled: Option<(f64, f64)>,
+    /// Last time the speed was within a quarter of the entry distance of the settled speed.
+    near_settled: f64,
 }
 
 impl StateTracker {
@@ -147,6 +167,8 @@ impl StateTracker {
             window: VecDeque::new(),
             calm_since: None,
             slope: 0.0,
+            settled: None,
+            near_settled: 0.0,
         })
     }
 
@@ -165,6 +187,7 @@ impl StateTracker {
         self.window.clear();
         self.calm_since = None;
         self.slope = 0.0;
+        self.settled = None;
         let speed = 0.0;
         self.change(MachineState::Stopped, time_s, speed)
     }
@@ -207,23 +230,36 @@ impl StateTracker {
         };
         match self.state {
             MachineState::Stopped => {
-                if have_slope && self.slope > enter {
+                // Coming out of a stop, the first speed in the window stands in for the settled one.
+                let first = self.window.front().map_or(rpm, |p| p.1);
+                let delta = self.cfg.sweep_enter_delta_pct * 0.01 * first;
+                if have_slope && self.slope > enter && rpm - first > delta {
                     return self.change(MachineState::SpeedingUp, window_start, rpm);
                 }
-                if have_slope && self.slope < -enter {
+                if have_slope && self.slope < -enter && first - rpm > delta {
                     return self.change(MachineState::SlowingDown, window_start, rpm);
                 }
                 if have_slope {
+                    self.settled = Some((rpm, time_s));
+                    self.near_settled = time_s;
                     return self.change(settled, window_start, rpm);
                 }
                 None
             }
             MachineState::SlowRoll | MachineState::Steady => {
-                if self.slope > enter {
-                    return self.change(MachineState::SpeedingUp, window_start, rpm);
+                let reference = self.follow_settled(time_s, rpm);
+                let delta = self.cfg.sweep_enter_delta_pct * 0.01 * reference;
+                if (rpm - reference).abs() < 0.25 * delta {
+                    self.near_settled = time_s;
                 }
-                if self.slope < -enter {
-                    return self.change(MachineState::SlowingDown, window_start, rpm);
+                let since = self.near_settled.max(window_start - self.cfg.slope_window_s);
+                if self.slope > enter && rpm - reference > delta {
+                    self.settled = None;
+                    return self.change(MachineState::SpeedingUp, since, rpm);
+                }
+                if self.slope < -enter && reference - rpm > delta {
+                    self.settled = None;
+                    return self.change(MachineState::SlowingDown, since, rpm);
                 }
                 // Hysteresis on speed between slow roll and steady: 10 % either way of the limit.
                 let limit = self.cfg.slow_roll_max_rpm;
@@ -254,6 +290,8 @@ impl StateTracker {
                     let since = *self.calm_since.get_or_insert(time_s);
                     if time_s - since >= self.cfg.hold_s {
                         self.calm_since = None;
+                        self.settled = Some((rpm, time_s));
+                        self.near_settled = time_s;
                         return self.change(settled, since, rpm);
                     }
                 } else {
@@ -262,6 +300,19 @@ impl StateTracker {
                 None
             }
         }
+    }
+}
+
+impl StateTracker {
+    /// Moves the settled speed toward `rpm` with the settling time constant and returns it.
+    fn follow_settled(&mut self, time_s: f64, rpm: f64) -> f64 {
+        let (reference, since) = self.settled.unwrap_or((rpm, time_s));
+        let dt = (time_s - since).max(0.0);
+        let k = 1.0 - (-dt / self.cfg.settle_tau_s).exp();
+        let next = reference + k * (rpm - reference);
+        self.settled = Some((next, time_s));
+        // The comparison uses the value before this revolution pulled it along.
+        reference
     }
 }
 
@@ -353,6 +404,17 @@ mod tests {
         let ch = run(profile, 600.0);
         assert_eq!(ch.len(), 1, "{ch:?}");
         assert_eq!(ch[0].to, MachineState::Steady);
+    }
+
+    #[test]
+    fn slow_coast_down_of_a_large_rotor_is_a_sweep() {
+        // 3000 rpm held for a minute, then coasting at 2 rpm/s (about 0.07 %/s at the top).
+        let profile = |t: f64| if t < 60.0 { 3000.0 } else { 3000.0 - 2.0 * (t - 60.0) };
+        let ch = run(profile, 1000.0);
+        let down = ch.iter().find(|c| c.to == MachineState::SlowingDown).expect("coast-down found");
+        assert!(down.speed_rpm > 2700.0, "found late, at {} rpm", down.speed_rpm);
+        // Dated from the last revolution near the settled speed: within the 30 s it takes to move 2 %.
+        assert!(down.time_s > 55.0 && down.time_s < 95.0, "dated {}", down.time_s);
     }
 
     #[test]

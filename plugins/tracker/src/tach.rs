@@ -165,6 +165,8 @@ pub struct TachDecoder {
 
 /// Samples per envelope chunk: short enough to follow a changing gap voltage, long enough to be cheap.
 const CHUNK: usize = 1024;
+/// Samples per group of the edge scan, checked for a possible edge by their extremes first.
+const GROUP: usize = 32;
 
 impl TachDecoder {
     /// A decoder for a signal sampled at `sample_rate` Hz whose first sample is at time `t0` s.
@@ -274,28 +276,69 @@ impl TachDecoder {
         let mut prev = sign * self.prev;
         let mut have_prev = self.have_prev;
         let mut armed = self.armed;
-        for (k, &raw) in chunk.iter().enumerate() {
-            let v = sign * raw;
-            if !v.is_finite() {
-                armed = false;
-                have_prev = false;
+        let mut k0 = 0;
+        while k0 < chunk.len() {
+            let group = &chunk[k0..(k0 + GROUP).min(chunk.len())];
+            // Most groups lie wholly on one side of both levels; those need no per-sample look once
+            // their extremes say nothing can happen: disarmed and never below the rearm level, or
+            // armed and never reaching the trigger level.
+            let (lo, hi) = chunk_extremes(group);
+            let (lo, hi) = if sign > 0.0 { (lo, hi) } else { (-hi, -lo) };
+            let quiet = lo.is_finite() && hi.is_finite() && have_prev && {
+                if armed {
+                    hi < trig
+                } else {
+                    lo >= rearm
+                }
+            };
+            if quiet {
+                prev = sign * group[group.len() - 1];
+                k0 += group.len();
                 continue;
             }
-            if v < rearm {
-                armed = true;
-            } else if armed && v >= trig && have_prev && prev < trig {
-                // Linear interpolation of the crossing between the previous sample and this one.
-                let frac = f64::from(trig - prev) / f64::from(v - prev);
-                let idx = (base + k as u64) as f64 - 1.0 + frac;
-                edges.push(self.t0 + idx / self.sample_rate);
-                armed = false;
-            }
-            prev = v;
-            have_prev = true;
+            self.scan_group(group, base + k0 as u64, trig, rearm, sign, &mut prev, &mut have_prev, &mut armed, edges);
+            k0 += group.len();
         }
         self.prev = sign * prev;
         self.have_prev = have_prev;
         self.armed = armed;
+    }
+
+    /// The per-sample hysteresis over one group whose first sample has overall index `base`.
+    #[allow(clippy::too_many_arguments)]
+    fn scan_group(
+        &self,
+        group: &[f32],
+        base: u64,
+        trig: f32,
+        rearm: f32,
+        sign: f32,
+        prev: &mut f32,
+        have_prev: &mut bool,
+        armed: &mut bool,
+        edges: &mut Vec<f64>,
+    ) {
+        let (mut p, mut hp, mut a) = (*prev, *have_prev, *armed);
+        for (k, &raw) in group.iter().enumerate() {
+            let v = sign * raw;
+            if !v.is_finite() {
+                a = false;
+                hp = false;
+                continue;
+            }
+            if v < rearm {
+                a = true;
+            } else if a && v >= trig && hp && p < trig {
+                // Linear interpolation of the crossing between the previous sample and this one.
+                let frac = f64::from(trig - p) / f64::from(v - p);
+                let idx = (base + k as u64) as f64 - 1.0 + frac;
+                edges.push(self.t0 + idx / self.sample_rate);
+                a = false;
+            }
+            p = v;
+            hp = true;
+        }
+        (*prev, *have_prev, *armed) = (p, hp, a);
     }
 }
 

@@ -26,6 +26,8 @@ use thiserror::Error;
 
 /// Samples between exact restarts of the phasor recurrence.
 const RESTART: usize = 256;
+/// Interleaved chains of the phasor recurrence.
+const LANES: usize = 4;
 
 /// Which orders to compute, and over how many revolutions.
 #[derive(Clone, Debug, PartialEq)]
@@ -307,22 +309,52 @@ impl VectorCalculator {
         }
         self.wt[0] *= wa;
         self.wt[n - 1] *= wb;
-        // θ_i = 2π(c1 τ_i + c2 τ_i²): the per-sample step grows by the constant 4π c2 dt².
+        // θ_i = 2π(c1 τ_i + c2 τ_i²). The phasor e^{−jθ_i} comes from a chirp recurrence (the step
+        // itself rotates by a constant, the angle's second difference), run in LANES interleaved
+        // chains so that the multiply latency of one chain hides behind the others; every RESTART
+        // samples each chain restarts from an exact sin_cos so rounding cannot accumulate.
+        let t_first = first_time + ia as f64 * dt;
+        let theta = |i: usize| TAU * rev.frac_at(t_first + i as f64 * dt);
+        // Second difference of θ over LANES samples: 2π·2·c2·(LANES·dt)².
+        let lanes_dt = LANES as f64 * dt;
+        let q = Complex64::from_polar(1.0, -TAU * 2.0 * rev.c2 * lanes_dt * lanes_dt);
+        let (q_re, q_im) = (q.re, q.im);
         let (re1, im1) = (&mut self.base_re[..n], &mut self.base_im[..n]);
-        let q = Complex64::from_polar(1.0, -2.0 * TAU * rev.c2 * dt * dt);
         let mut start = 0;
         while start < n {
             let end = (start + RESTART).min(n);
-            let tau = tau0 + start as f64 * dt;
-            let theta = TAU * rev.frac_at(rev.t_start + tau);
-            let step = TAU * (rev.c1 * dt + rev.c2 * (2.0 * tau * dt + dt * dt));
-            let mut p = Complex64::from_polar(1.0, -theta);
-            let mut r = Complex64::from_polar(1.0, -step);
-            for i in start..end {
-                re1[i] = p.re;
-                im1[i] = p.im;
-                p *= r;
-                r *= q;
+            let mut p_re = [0.0; LANES];
+            let mut p_im = [0.0; LANES];
+            let mut r_re = [0.0; LANES];
+            let mut r_im = [0.0; LANES];
+            for l in 0..LANES {
+                let i = start + l;
+                let (th0, th1) = (theta(i), theta(i + LANES));
+                let (s0, c0) = (-th0).sin_cos();
+                let (s1, c1) = (-(th1 - th0)).sin_cos();
+                p_re[l] = c0;
+                p_im[l] = s0;
+                r_re[l] = c1;
+                r_im[l] = s1;
+            }
+            let full = start + (end - start) / LANES * LANES;
+            let mut i = start;
+            while i < full {
+                for l in 0..LANES {
+                    re1[i + l] = p_re[l];
+                    im1[i + l] = p_im[l];
+                    let (pr, pi) = (p_re[l], p_im[l]);
+                    let (rr, ri) = (r_re[l], r_im[l]);
+                    p_re[l] = pr * rr - pi * ri;
+                    p_im[l] = pr * ri + pi * rr;
+                    r_re[l] = rr * q_re - ri * q_im;
+                    r_im[l] = rr * q_im + ri * q_re;
+                }
+                i += LANES;
+            }
+            for (l, j) in (full..end).enumerate() {
+                re1[j] = p_re[l];
+                im1[j] = p_im[l];
             }
             start = end;
         }
