@@ -99,9 +99,7 @@ pub(crate) fn analyze_recording(
         frames += n as u64;
         let (t, v) = out.split_at(1);
         let vibs: Vec<&[f32]> = v.iter().map(|c| c.as_slice()).collect();
-        engine
-            .push(&t[0], &vibs)
-            .with_context(|| format!("{source}"))?;
+        engine.push(&t[0], &vibs).with_context(|| source.clone())?;
         collect(engine.take_updates(), &mut events);
         progress.show(frames);
     }
@@ -132,7 +130,11 @@ pub(crate) fn analyze_recording(
 }
 
 /// Analyses a simulation straight from the simulator, without a file.
-pub(crate) fn analyze_simulation(mut sim: Simulator, cfg: EngineConfig, label: &str) -> Result<Analysis> {
+pub(crate) fn analyze_simulation(
+    mut sim: Simulator,
+    cfg: EngineConfig,
+    label: &str,
+) -> Result<Analysis> {
     let started = Instant::now();
     let fs = sim.sample_rate();
     let names = sim.channel_names();
@@ -160,7 +162,9 @@ pub(crate) fn analyze_simulation(mut sim: Simulator, cfg: EngineConfig, label: &
         frames += n as u64;
         let (t, v) = cols.split_at(1);
         let vibs: Vec<&[f32]> = v.iter().map(|c| c.as_slice()).collect();
-        engine.push(&t[0], &vibs).map_err(|e| anyhow::anyhow!("{e}"))?;
+        engine
+            .push(&t[0], &vibs)
+            .map_err(|e| anyhow::anyhow!("{e}"))?;
         collect(engine.take_updates(), &mut events);
         progress.show(frames);
     }

@@ -44,7 +44,10 @@ fn mode(rpm: f64, zeta: f64, ecc: f64, heavy: f64) -> SimMode {
 
 /// The machines of the demo plant.
 pub(crate) fn machines() -> Vec<DemoMachine> {
-    let tg_modes = vec![mode(1380.0, 0.045, 3.0, 30.0), mode(2420.0, 0.06, 2.2, 250.0)];
+    let tg_modes = vec![
+        mode(1380.0, 0.045, 3.0, 30.0),
+        mode(2420.0, 0.06, 2.2, 250.0),
+    ];
     let comp_modes = vec![mode(2900.0, 0.07, 2.5, 120.0)];
     let fan_modes = vec![mode(1210.0, 0.077, 0.35, 80.0)];
     vec![
@@ -92,7 +95,13 @@ pub(crate) fn machines() -> Vec<DemoMachine> {
             unit: "mm/s",
             min_operating_rpm: 600.0,
             max_continuous_rpm: 1000.0,
-            profile: vec![(0.0, 150.0), (20.0, 150.0), (140.0, 1450.0), (150.0, 1450.0), (290.0, 100.0)],
+            profile: vec![
+                (0.0, 150.0),
+                (20.0, 150.0),
+                (140.0, 1450.0),
+                (150.0, 1450.0),
+                (290.0, 100.0),
+            ],
             channels: vec![SimChannel {
                 modes: fan_modes,
                 noise_rms: 0.05,
@@ -115,5 +124,6 @@ pub(crate) fn machine(id: &str) -> anyhow::Result<DemoMachine> {
 
 /// The machine's demo speed profile.
 pub(crate) fn profile(m: &DemoMachine) -> anyhow::Result<SpeedProfile> {
-    SpeedProfile::new(m.profile.clone()).map_err(|e| anyhow::anyhow!("demo profile of {}: {e}", m.id))
+    SpeedProfile::new(m.profile.clone())
+        .map_err(|e| anyhow::anyhow!("demo profile of {}: {e}", m.id))
 }

@@ -15,8 +15,14 @@ pub(crate) fn parse_range(s: &str, option: &str) -> Result<(f64, f64)> {
         .split_once(':')
         .or_else(|| s.split_once('-'))
         .ok_or_else(|| anyhow!("--{option} `{s}`: expected MIN:MAX in r/min"))?;
-    let lo: f64 = a.trim().parse().with_context(|| format!("--{option} `{s}`: `{a}` is not a speed"))?;
-    let hi: f64 = b.trim().parse().with_context(|| format!("--{option} `{s}`: `{b}` is not a speed"))?;
+    let lo: f64 = a
+        .trim()
+        .parse()
+        .with_context(|| format!("--{option} `{s}`: `{a}` is not a speed"))?;
+    let hi: f64 = b
+        .trim()
+        .parse()
+        .with_context(|| format!("--{option} `{s}`: `{b}` is not a speed"))?;
     if !(lo >= 0.0 && hi > lo && hi.is_finite()) {
         bail!("--{option} `{s}`: needs 0 <= MIN < MAX");
     }
@@ -28,7 +34,9 @@ fn per_channel<T: Clone>(list: &[T], i: usize, option: &str, n: usize) -> Result
     match list.len() {
         1 => Ok(list[0].clone()),
         len if len == n => Ok(list[i].clone()),
-        len => bail!("--{option}: {len} values given for {n} channels (give one, or one per channel)"),
+        len => {
+            bail!("--{option}: {len} values given for {n} channels (give one, or one per channel)")
+        }
     }
 }
 

@@ -27,7 +27,9 @@ pub(crate) fn run(a: AnalyzeArgs) -> Result<()> {
     }
     if a.bench {
         let samples = analysis.duration_s * analysis.sample_rate * (vib.len() + 1) as f64;
-        let bytes = std::fs::metadata(&a.file).map(|m| m.len() as f64).unwrap_or(0.0);
+        let bytes = std::fs::metadata(&a.file)
+            .map(|m| m.len() as f64)
+            .unwrap_or(0.0);
         let t = analysis.elapsed_s.max(1e-9);
         eprintln!(
             "bench: {:.3} s, {:.1} M samples ({} channels read), {:.1} M samples/s, {:.1} MB/s, peak memory {} MiB",

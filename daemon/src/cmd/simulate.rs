@@ -14,8 +14,14 @@ fn parse_profile(s: &str) -> Result<SpeedProfile> {
         let (t, v) = part
             .split_once(':')
             .ok_or_else(|| anyhow!("--profile: `{part}` is not TIME:RPM"))?;
-        let t: f64 = t.trim().parse().with_context(|| format!("--profile: time `{t}`"))?;
-        let v: f64 = v.trim().parse().with_context(|| format!("--profile: speed `{v}`"))?;
+        let t: f64 = t
+            .trim()
+            .parse()
+            .with_context(|| format!("--profile: time `{t}`"))?;
+        let v: f64 = v
+            .trim()
+            .parse()
+            .with_context(|| format!("--profile: speed `{v}`"))?;
         points.push((t, v));
     }
     SpeedProfile::new(points).map_err(|e| anyhow!("--profile: {e}"))
@@ -41,14 +47,23 @@ pub(crate) fn sim_config(a: &SimulateArgs) -> Result<SimConfig> {
                 .split_once(':')
                 .ok_or_else(|| anyhow!("--tone: `{t}` is not HZ:AMPLITUDE"))?;
             c.tones.push(Tone {
-                freq_hz: f.trim().parse().with_context(|| format!("--tone: frequency `{f}`"))?,
-                amplitude: amp.trim().parse().with_context(|| format!("--tone: amplitude `{amp}`"))?,
+                freq_hz: f
+                    .trim()
+                    .parse()
+                    .with_context(|| format!("--tone: frequency `{f}`"))?,
+                amplitude: amp
+                    .trim()
+                    .parse()
+                    .with_context(|| format!("--tone: amplitude `{amp}`"))?,
             });
         }
     }
     let ppr = a.ppr.unwrap_or(m.tach.ppr);
     if a.gap_teeth >= ppr {
-        bail!("--gap-teeth {} leaves no tooth on a {ppr}-tooth wheel", a.gap_teeth);
+        bail!(
+            "--gap-teeth {} leaves no tooth on a {ppr}-tooth wheel",
+            a.gap_teeth
+        );
     }
     // A gap wheel leaves out the last teeth before the reference, so the first tooth after the gap
     // is tooth 0.

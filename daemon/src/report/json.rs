@@ -84,6 +84,8 @@ pub(crate) fn document(a: &Analysis) -> Value {
     let mut doc = json!({
         "source": a.source,
         "sample_rate_hz": a.sample_rate,
+        "start_s": r(a.start_s, 6),
+        "vibration_channels": a.channels,
         "duration_s": r(a.duration_s, 3),
         "tach": {
             "column": a.tach,

@@ -27,7 +27,10 @@ pub(crate) fn render(a: &Analysis) -> String {
         );
     }
     if a.events.is_empty() {
-        let _ = writeln!(s, "\nno run-up or coast-down found (steady speed, or sweeps too small)");
+        let _ = writeln!(
+            s,
+            "\nno run-up or coast-down found (steady speed, or sweeps too small)"
+        );
     }
     for (i, e) in a.events.iter().enumerate() {
         let _ = writeln!(
@@ -62,8 +65,8 @@ pub(crate) fn render(a: &Analysis) -> String {
             }
             let _ = writeln!(
                 s,
-                "    {:>9} {:>10} {:>7} {:>7} {:>7} {:>9} {:>9}  {}",
-                "Nc r/min", "peak", "lag °", "AF", "zeta", "N1", "N2", "margin"
+                "    {:>9} {:>10} {:>7} {:>7} {:>7} {:>9} {:>9}  margin",
+                "Nc r/min", "peak", "lag °", "AF", "zeta", "N1", "N2"
             );
             for cr in &c.criticals {
                 let r = &cr.resonance;
@@ -90,7 +93,11 @@ pub(crate) fn render(a: &Analysis) -> String {
                     opt(r.n1_rpm, 0),
                     opt(r.n2_rpm, 0),
                     margin,
-                    if r.heavily_damped { " (heavily damped)" } else { "" }
+                    if r.heavily_damped {
+                        " (heavily damped)"
+                    } else {
+                        ""
+                    }
                 );
             }
         }

@@ -248,25 +248,32 @@ impl AngleTracker {
                     self.complete_revolution(t, revs);
                     self.teeth.push((0, t));
                     self.position = Some(0);
-                } else if k == gap_step || (expected_gap && k == 1) {
-                    // A gap where none belongs, or no gap where it belongs: the count slipped.
+                } else if expected_gap && k == 1 {
+                    // No gap where it belongs: the count slipped.
                     self.stats.resyncs += 1;
                     self.position = None;
                     self.last_ref = None;
                     self.prev_period = None;
                     self.teeth.clear();
-                    if k == gap_step {
-                        self.position = Some(0);
-                        self.last_ref = Some(t);
-                        self.teeth.push((0, t));
-                    }
                 } else {
-                    // Ordinary teeth, possibly with dropouts that do not reach the gap.
+                    // Ordinary teeth, or a silence as long as the gap where none belongs: a broken
+                    // tooth reads exactly like the mark, so it is taken as a dropout unless it comes
+                    // too late in the turn for one.
                     let new_pos = u64::from(pos) + k;
                     if new_pos + u64::from(self.gap_teeth) > u64::from(teeth_on_wheel) {
-                        // The dropout would run through the gap: we cannot tell where we are.
                         self.stats.resyncs += 1;
-                        self.lose(Some(t));
+                        if k == gap_step {
+                            // A gap where the count cannot place a dropout: the count slipped, and
+                            // this gap is taken as the mark.
+                            self.position = Some(0);
+                            self.last_ref = Some(t);
+                            self.prev_period = None;
+                            self.teeth.clear();
+                            self.teeth.push((0, t));
+                        } else {
+                            // The dropout would run through the gap: we cannot tell where we are.
+                            self.lose(Some(t));
+                        }
                         return;
                     }
                     if k > 1 {

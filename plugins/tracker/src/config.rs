@@ -97,7 +97,7 @@ impl Default for EngineConfig {
             bin_pct: 0.2,
             min_sweep_share: 0.3,
             max_map_rows: 1024,
-            map_step_pct: 0.5,
+            map_step_pct: 1.0,
             map_interval_s: 10.0,
             margins: None,
         }
@@ -153,14 +153,20 @@ impl EngineConfig {
             return Err(invalid("resonance", e.to_string()));
         }
         if self.channels.is_empty() {
-            return Err(invalid("channels", "at least one vibration channel is needed"));
+            return Err(invalid(
+                "channels",
+                "at least one vibration channel is needed",
+            ));
         }
         for (i, c) in self.channels.iter().enumerate() {
             if c.name.trim().is_empty() {
                 return Err(invalid(format!("channels[{i}].name"), "must not be empty"));
             }
             if !(c.scale.is_finite() && c.scale != 0.0) {
-                return Err(invalid(format!("channels[{i}].scale"), "must be a finite, non-zero factor"));
+                return Err(invalid(
+                    format!("channels[{i}].scale"),
+                    "must be a finite, non-zero factor",
+                ));
             }
         }
         if let SlowRoll::Window { min_rpm, max_rpm } = self.slow_roll {
@@ -216,7 +222,12 @@ impl fmt::Display for EngineConfig {
                 c.name, c.amplitude, c.scale, c.angle_deg
             )?;
         }
-        let orders: Vec<String> = self.vectors.orders.iter().map(|n| format!("{n}X")).collect();
+        let orders: Vec<String> = self
+            .vectors
+            .orders
+            .iter()
+            .map(|n| format!("{n}X"))
+            .collect();
         writeln!(
             f,
             "vectors: {} over {} rev(s); speed bins {} %",

@@ -264,8 +264,8 @@ pub struct Engine {
     slow_roll_window: MeanVectors,
     in_window: bool,
     losses_seen: u64,
-    /// Speed and time of the last order-map row.
-    last_row: Option<(f64, f64)>,
+    /// Speed, time and last revolution index of the last order-map row.
+    last_row: Option<(f64, f64, u64)>,
     emit_revolutions: bool,
     updates: Vec<Update>,
     stats: EngineStats,
@@ -374,9 +374,6 @@ impl Engine {
         for (b, c) in self.buf.iter_mut().zip(channels) {
             b.extend_from_slice(c);
         }
-        for (m, c) in self.maps.iter_mut().zip(channels) {
-            m.push_samples(c);
-        }
         self.total += tach.len() as u64;
         self.stats.samples = self.total;
         self.edges.clear();
@@ -441,14 +438,26 @@ impl Engine {
         let slices: Vec<&[f32]> = self.buf.iter().map(|b| b.as_slice()).collect();
         let vectors = self.vectors.process(rev, first_time, self.fs, &slices);
         let wanted = self.maps.first().is_some_and(|m| m.busy()) || self.row_wanted(rev);
+        // The order map gets only the samples of the revolutions it uses (with a few either side
+        // for its interpolation), straight from the engine's buffer.
+        let from = (((rev.t_start - self.t0) * self.fs).floor() as i64 - 3)
+            .max(self.buf_start as i64) as u64;
+        let to = (((rev.t_end - self.t0) * self.fs).ceil() as u64 + 4).min(self.total);
         for c in 0..self.maps.len() {
             if !wanted {
                 self.maps[c].skip_revolution(rev);
                 continue;
             }
+            if to > from {
+                let (a, b) = (
+                    (from - self.buf_start) as usize,
+                    (to - self.buf_start) as usize,
+                );
+                self.maps[c].push_samples_at(from, &self.buf[c][a..b]);
+            }
             if let Some(mut spec) = self.maps[c].push_revolution(rev) {
                 if c == 0 {
-                    self.last_row = Some((spec.speed_rpm, spec.time_s));
+                    self.last_row = Some((spec.speed_rpm, spec.time_s, rev.index));
                 }
                 let f = self.factor[c] as f32;
                 for a in &mut spec.amplitudes {
@@ -465,20 +474,33 @@ impl Engine {
     }
 
     /// Whether an order-map row should start at this revolution: rows are taken by speed step
-    /// (like a speed-triggered analyser) and, at steady speed, by time interval.
+    /// (like a speed-triggered analyser) and, at steady speed, by time interval, but never back to
+    /// back: at least one block's worth of revolutions lies between rows. That bounds the order
+    /// map's share of the work (its anti-alias filter is the costliest per-sample stage) to half
+    /// the data even where a slow machine sweeps through several speed steps within one block.
     fn row_wanted(&self, rev: &Revolution) -> bool {
+        let gap = self
+            .cfg
+            .order_map
+            .as_ref()
+            .map_or(0, |m| m.revs_per_block as u64);
         match self.last_row {
             None => true,
-            Some((speed, time)) => {
-                (rev.mean_rpm() / speed).ln().abs() >= self.cfg.map_step_pct / 100.0
-                    || rev.mid_time() - time >= self.cfg.map_interval_s
+            Some((speed, time, last_index)) => {
+                rev.index > last_index + gap
+                    && ((rev.mean_rpm() / speed).ln().abs() >= self.cfg.map_step_pct / 100.0
+                        || rev.mid_time() - time >= self.cfg.map_interval_s)
             }
         }
     }
 
     fn on_vectors(&mut self, rv: RevVectors) {
         self.stats.vectors += 1;
-        if rv.vectors.iter().any(|v| !(v.re.is_finite() && v.im.is_finite())) {
+        if rv
+            .vectors
+            .iter()
+            .any(|v| !(v.re.is_finite() && v.im.is_finite()))
+        {
             self.stats.bad_vectors += 1;
             return;
         }
@@ -586,7 +608,9 @@ impl Engine {
         let (lo, hi) = sw
             .points
             .iter()
-            .fold((f64::INFINITY, 0.0f64), |(lo, hi), p| (lo.min(p.speed_rpm), hi.max(p.speed_rpm)));
+            .fold((f64::INFINITY, 0.0f64), |(lo, hi), p| {
+                (lo.min(p.speed_rpm), hi.max(p.speed_rpm))
+            });
         if sw.points.len() < 8 || hi - lo < self.cfg.min_sweep_share * hi {
             self.stats.small_sweeps += 1;
             return;
@@ -730,8 +754,14 @@ fn bin_point(b: &Bin) -> Point {
 fn add_to_sweep(sw: &mut Sweep, p: &Point, bin_pct: f64) {
     sw.vectors += 1;
     let key = (p.speed_rpm.max(1e-9).ln() / (1.0 + bin_pct / 100.0).ln()).floor() as i64;
+    // A speed that dithers back across the edge of the bin just entered (tach jitter) stays in the
+    // current bin, so the number of points is bounded by the speed range, not the duration.
+    let behind = match sw.kind {
+        EventKind::RunUp => -1,
+        EventKind::CoastDown => 1,
+    };
     match &mut sw.bin {
-        Some(b) if b.key == key => {
+        Some(b) if b.key == key || b.key + behind == key => {
             b.n += 1;
             b.t += p.time_s;
             b.s += p.speed_rpm;

@@ -111,7 +111,10 @@ impl StateConfig {
             return bad("sweep_enter_pct_s", "must be positive");
         }
         if !(self.sweep_exit_pct_s > 0.0 && self.sweep_exit_pct_s < self.sweep_enter_pct_s) {
-            return bad("sweep_exit_pct_s", "must be positive and below sweep_enter_pct_s");
+            return bad(
+                "sweep_exit_pct_s",
+                "must be positive and below sweep_enter_pct_s",
+            );
         }
         if !(self.sweep_enter_min_rpm_s >= 0.0) {
             return bad("sweep_enter_min_rpm_s", "must not be negative");
@@ -219,7 +222,11 @@ impl StateTracker {
         let span = time_s - self.window.front().map_or(time_s, |p| p.0);
         // Too little history for a slope: judge by speed alone.
         let have_slope = self.window.len() >= 3 && span >= 0.25 * self.cfg.slope_window_s;
-        self.slope = if have_slope { fit_slope(&self.window) } else { 0.0 };
+        self.slope = if have_slope {
+            fit_slope(&self.window)
+        } else {
+            0.0
+        };
         let enter = (self.cfg.sweep_enter_pct_s * 0.01 * rpm).max(self.cfg.sweep_enter_min_rpm_s);
         let exit = self.cfg.sweep_exit_pct_s * 0.01 * rpm;
         let window_start = self.window.front().map_or(time_s, |p| p.0);
@@ -252,7 +259,9 @@ impl StateTracker {
                 if (rpm - reference).abs() < 0.25 * delta {
                     self.near_settled = time_s;
                 }
-                let since = self.near_settled.max(window_start - self.cfg.slope_window_s);
+                let since = self
+                    .near_settled
+                    .max(window_start - self.cfg.slope_window_s);
                 if self.slope > enter && rpm - reference > delta {
                     self.settled = None;
                     return self.change(MachineState::SpeedingUp, since, rpm);
@@ -409,12 +418,29 @@ mod tests {
     #[test]
     fn slow_coast_down_of_a_large_rotor_is_a_sweep() {
         // 3000 rpm held for a minute, then coasting at 2 rpm/s (about 0.07 %/s at the top).
-        let profile = |t: f64| if t < 60.0 { 3000.0 } else { 3000.0 - 2.0 * (t - 60.0) };
+        let profile = |t: f64| {
+            if t < 60.0 {
+                3000.0
+            } else {
+                3000.0 - 2.0 * (t - 60.0)
+            }
+        };
         let ch = run(profile, 1000.0);
-        let down = ch.iter().find(|c| c.to == MachineState::SlowingDown).expect("coast-down found");
-        assert!(down.speed_rpm > 2700.0, "found late, at {} rpm", down.speed_rpm);
+        let down = ch
+            .iter()
+            .find(|c| c.to == MachineState::SlowingDown)
+            .expect("coast-down found");
+        assert!(
+            down.speed_rpm > 2700.0,
+            "found late, at {} rpm",
+            down.speed_rpm
+        );
         // Dated from the last revolution near the settled speed: within the 30 s it takes to move 2 %.
-        assert!(down.time_s > 55.0 && down.time_s < 95.0, "dated {}", down.time_s);
+        assert!(
+            down.time_s > 55.0 && down.time_s < 95.0,
+            "dated {}",
+            down.time_s
+        );
     }
 
     #[test]

@@ -132,7 +132,13 @@ mod tests {
         // A speeding-up revolution: c2 > 0 and frac(t1) = 1.
         let c2 = 40.0;
         let c1 = (1.0 - c2 * (t1 - t0) * (t1 - t0)) / (t1 - t0);
-        let rev = Revolution { index: 0, t_start: t0, t_end: t1, c1, c2 };
+        let rev = Revolution {
+            index: 0,
+            t_start: t0,
+            t_end: t1,
+            c1,
+            c2,
+        };
         assert!((rev.frac_at(t1) - 1.0).abs() < 1e-12);
         for f in [0.0, 0.1, 0.5, 0.9, 1.0] {
             assert!((rev.frac_at(rev.time_at(f)) - f).abs() < 1e-12);

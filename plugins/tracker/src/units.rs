@@ -193,7 +193,12 @@ impl fmt::Display for Amplitude {
 ///
 /// For a harmonic of angular frequency ω: V = jωX and A = jωV = −ω²X, so X = V/(jω) = −A/ω²
 /// (standard identities; REFERENCES §7). Returns `None` at zero speed, where it is undefined.
-pub fn to_displacement_um(v: Complex64, unit: Unit, order: f64, speed_rpm: f64) -> Option<Complex64> {
+pub fn to_displacement_um(
+    v: Complex64,
+    unit: Unit,
+    order: f64,
+    speed_rpm: f64,
+) -> Option<Complex64> {
     let omega = TAU * order * speed_rpm / 60.0;
     let si = v * unit.to_si();
     let metres = match unit.kind() {
@@ -235,10 +240,15 @@ mod tests {
         // Sinusoid: p-p = 2 × peak, RMS = peak/√2 (standard identities).
         let v = Complex64::new(3.0, 4.0);
         assert!((Amplitude::usual(Unit::Mil).display(v).norm() - 10.0).abs() < 1e-12);
-        let rms = Amplitude::usual(Unit::MillimetrePerSecond).display(v).norm();
+        let rms = Amplitude::usual(Unit::MillimetrePerSecond)
+            .display(v)
+            .norm();
         assert!((rms - 5.0 / SQRT_2).abs() < 1e-12);
         assert_eq!(Amplitude::usual(Unit::Micrometre).to_string(), "µm pk-pk");
-        assert_eq!(Amplitude::usual(Unit::MillimetrePerSecond).to_string(), "mm/s RMS");
+        assert_eq!(
+            Amplitude::usual(Unit::MillimetrePerSecond).to_string(),
+            "mm/s RMS"
+        );
         assert_eq!(Unit::parse("µm"), Ok(Unit::Micrometre));
         assert!(Unit::parse("furlong").is_err());
         assert_eq!(Detection::parse("RMS"), Ok(Detection::Rms));

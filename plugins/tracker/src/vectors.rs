@@ -24,7 +24,8 @@ use crate::types::{Complex64, Revolution};
 use std::f64::consts::TAU;
 use thiserror::Error;
 
-/// Samples between exact restarts of the phasor recurrence.
+/// Samples per tile: the phasor recurrence restarts exactly at each tile, and the scratch arrays
+/// hold one tile.
 const RESTART: usize = 256;
 /// Interleaved chains of the phasor recurrence.
 const LANES: usize = 4;
@@ -151,11 +152,11 @@ impl VectorCalculator {
             orders: cfg.orders.clone(),
             revs_per_vector: cfg.revs_per_vector,
             channels,
-            base_re: Vec::new(),
-            base_im: Vec::new(),
-            wt: Vec::new(),
-            re: vec![Vec::new(); k],
-            im: vec![Vec::new(); k],
+            base_re: vec![0.0; RESTART],
+            base_im: vec![0.0; RESTART],
+            wt: vec![0.0; RESTART],
+            re: vec![vec![0.0; RESTART]; k],
+            im: vec![vec![0.0; RESTART]; k],
             sums: vec![
                 ChannelSums {
                     m: 0.0,
@@ -225,21 +226,29 @@ impl VectorCalculator {
         // Partial weights of the end cells: the share of [t_i − dt/2, t_i + dt/2] inside the turn.
         let wa = ia as f64 + 0.5 - pos_a;
         let wb = pos_b - (ib as f64 - 0.5);
-        self.fill_phasors(rev, first_time, dt, ia, ib, wa, wb);
         let n = ib - ia + 1;
-        let weights_total = sum4(&self.wt[..n]);
-        // Kernel sums, shared by the channels.
-        for k in 0..self.orders.len() {
-            let s = Complex64::new(sum4(&self.re[k][..n]), sum4(&self.im[k][..n]));
-            self.s1[k] += s;
-        }
-        for (c, x) in channels.iter().enumerate() {
-            let x = &x[ia..=ib];
-            self.sums[c].m += dot1(x, &self.wt[..n]);
+        let t_first = first_time + ia as f64 * dt;
+        let mut weights_total = 0.0;
+        // Tiles of RESTART samples keep every scratch array in the L1 cache, whatever the length of
+        // the revolution (a slow-roll turn at 25.6 kHz holds ten thousand samples and more).
+        let mut from = 0;
+        while from < n {
+            let len = RESTART.min(n - from);
+            self.fill_tile(rev, t_first, dt, from, len, n, wa, wb);
+            weights_total += sum4(&self.wt[..len]);
             for k in 0..self.orders.len() {
-                let (sr, si) = dot2(x, &self.re[k][..n], &self.im[k][..n]);
-                self.sums[c].s[k] += Complex64::new(sr, si);
+                let s = Complex64::new(sum4(&self.re[k][..len]), sum4(&self.im[k][..len]));
+                self.s1[k] += s;
             }
+            for (c, x) in channels.iter().enumerate() {
+                let x = &x[ia + from..ia + from + len];
+                self.sums[c].m += dot1(x, &self.wt[..len]);
+                for k in 0..self.orders.len() {
+                    let (sr, si) = dot2(x, &self.re[k][..len], &self.im[k][..len]);
+                    self.sums[c].s[k] += Complex64::new(sr, si);
+                }
+            }
+            from += len;
         }
         self.w += weights_total;
         self.revs_in_block += 1;
@@ -275,98 +284,88 @@ impl VectorCalculator {
         out
     }
 
-    /// Fills the scratch for samples `ia..=ib` of the revolution: the angle weights and, per order,
-    /// the weighted phasors `w_i e^{−jnθ_i}`. `wa` and `wb` are the shares of the end cells inside it.
+    /// Fills the scratch for the tile of `len` samples starting `from` samples after the first
+    /// sample of the revolution (at time `t_first`; the revolution holds `n` samples): the angle
+    /// weights and, per order, the weighted phasors `w_i e^{−jnθ_i}`. `wa` and `wb` are the shares
+    /// of the revolution's first and last sampling cells inside it.
     #[allow(clippy::too_many_arguments)]
-    fn fill_phasors(
+    fn fill_tile(
         &mut self,
         rev: &Revolution,
-        first_time: f64,
+        t_first: f64,
         dt: f64,
-        ia: usize,
-        ib: usize,
+        from: usize,
+        len: usize,
+        n: usize,
         wa: f64,
         wb: f64,
     ) {
-        let n = ib - ia + 1;
-        if self.base_re.len() < n {
-            // Grows to the longest revolution seen, then never again.
-            self.base_re.resize(n, 0.0);
-            self.base_im.resize(n, 0.0);
-            self.wt.resize(n, 0.0);
-            for k in 0..self.orders.len() {
-                self.re[k].resize(n, 0.0);
-                self.im[k].resize(n, 0.0);
-            }
-        }
-        let tau0 = first_time + ia as f64 * dt - rev.t_start;
         // The angle advanced per sample, in turns: dθ/dt·dt, linear in time for the quadratic model.
         // Weighting by it makes the sum an integral over angle, not time, so that on a fast run-up the
         // later (faster) samples of the turn count for the larger angle they cover.
+        let tau0 = t_first + from as f64 * dt - rev.t_start;
         let (w0, dw) = ((rev.c1 + 2.0 * rev.c2 * tau0) * dt, 2.0 * rev.c2 * dt * dt);
-        for (i, w) in self.wt[..n].iter_mut().enumerate() {
+        for (i, w) in self.wt[..len].iter_mut().enumerate() {
             *w = w0 + dw * i as f64;
         }
-        self.wt[0] *= wa;
-        self.wt[n - 1] *= wb;
+        if from == 0 {
+            self.wt[0] *= wa;
+        }
+        if from + len == n {
+            self.wt[len - 1] *= wb;
+        }
         // θ_i = 2π(c1 τ_i + c2 τ_i²). The phasor e^{−jθ_i} comes from a chirp recurrence (the step
         // itself rotates by a constant, the angle's second difference), run in LANES interleaved
-        // chains so that the multiply latency of one chain hides behind the others; every RESTART
-        // samples each chain restarts from an exact sin_cos so rounding cannot accumulate.
-        let t_first = first_time + ia as f64 * dt;
-        let theta = |i: usize| TAU * rev.frac_at(t_first + i as f64 * dt);
+        // chains so that the multiply latency of one chain hides behind the others; each tile
+        // restarts every chain from an exact sin_cos so rounding cannot accumulate.
+        let t_tile = t_first + from as f64 * dt;
+        let theta = |i: usize| TAU * rev.frac_at(t_tile + i as f64 * dt);
         // Second difference of θ over LANES samples: 2π·2·c2·(LANES·dt)².
         let lanes_dt = LANES as f64 * dt;
         let q = Complex64::from_polar(1.0, -TAU * 2.0 * rev.c2 * lanes_dt * lanes_dt);
         let (q_re, q_im) = (q.re, q.im);
-        let (re1, im1) = (&mut self.base_re[..n], &mut self.base_im[..n]);
-        let mut start = 0;
-        while start < n {
-            let end = (start + RESTART).min(n);
-            let mut p_re = [0.0; LANES];
-            let mut p_im = [0.0; LANES];
-            let mut r_re = [0.0; LANES];
-            let mut r_im = [0.0; LANES];
+        let (re1, im1) = (&mut self.base_re[..len], &mut self.base_im[..len]);
+        let mut p_re = [0.0; LANES];
+        let mut p_im = [0.0; LANES];
+        let mut r_re = [0.0; LANES];
+        let mut r_im = [0.0; LANES];
+        for l in 0..LANES {
+            let (th0, th1) = (theta(l), theta(l + LANES));
+            let (s0, c0) = (-th0).sin_cos();
+            let (s1, c1) = (-(th1 - th0)).sin_cos();
+            p_re[l] = c0;
+            p_im[l] = s0;
+            r_re[l] = c1;
+            r_im[l] = s1;
+        }
+        let full = len / LANES * LANES;
+        let mut i = 0;
+        while i < full {
             for l in 0..LANES {
-                let i = start + l;
-                let (th0, th1) = (theta(i), theta(i + LANES));
-                let (s0, c0) = (-th0).sin_cos();
-                let (s1, c1) = (-(th1 - th0)).sin_cos();
-                p_re[l] = c0;
-                p_im[l] = s0;
-                r_re[l] = c1;
-                r_im[l] = s1;
+                re1[i + l] = p_re[l];
+                im1[i + l] = p_im[l];
+                let (pr, pi) = (p_re[l], p_im[l]);
+                let (rr, ri) = (r_re[l], r_im[l]);
+                p_re[l] = pr * rr - pi * ri;
+                p_im[l] = pr * ri + pi * rr;
+                r_re[l] = rr * q_re - ri * q_im;
+                r_im[l] = rr * q_im + ri * q_re;
             }
-            let full = start + (end - start) / LANES * LANES;
-            let mut i = start;
-            while i < full {
-                for l in 0..LANES {
-                    re1[i + l] = p_re[l];
-                    im1[i + l] = p_im[l];
-                    let (pr, pi) = (p_re[l], p_im[l]);
-                    let (rr, ri) = (r_re[l], r_im[l]);
-                    p_re[l] = pr * rr - pi * ri;
-                    p_im[l] = pr * ri + pi * rr;
-                    r_re[l] = rr * q_re - ri * q_im;
-                    r_im[l] = rr * q_im + ri * q_re;
-                }
-                i += LANES;
-            }
-            for (l, j) in (full..end).enumerate() {
-                re1[j] = p_re[l];
-                im1[j] = p_im[l];
-            }
-            start = end;
+            i += LANES;
+        }
+        for (l, j) in (full..len).enumerate() {
+            re1[j] = p_re[l];
+            im1[j] = p_im[l];
         }
         // Each order as a power of the first, e^{−jnθ} = (e^{−jθ})^n, times the weight.
         for k in 0..self.orders.len() {
             power_into(
-                &self.base_re[..n],
-                &self.base_im[..n],
-                &self.wt[..n],
+                &self.base_re[..len],
+                &self.base_im[..len],
+                &self.wt[..len],
                 self.orders[k],
-                &mut self.re[k][..n],
-                &mut self.im[k][..n],
+                &mut self.re[k][..len],
+                &mut self.im[k][..len],
             );
         }
     }
@@ -381,7 +380,12 @@ fn power_into(
     out_re: &mut [f64],
     out_im: &mut [f64],
 ) {
-    let n = re.len().min(im.len()).min(w.len()).min(out_re.len()).min(out_im.len());
+    let n = re
+        .len()
+        .min(im.len())
+        .min(w.len())
+        .min(out_re.len())
+        .min(out_im.len());
     for i in 0..n {
         let b = Complex64::new(re[i], im[i]);
         let mut p = b;
@@ -510,11 +514,20 @@ mod tests {
     fn orders_and_phases_at_constant_speed() {
         // 1X 20 at 30° lag, 2X 5 at 200° lag, a DC gap of −800 (proximity probe in µm-equivalent).
         let fs = 5000.0;
-        let (x, revs) = signal(fs, 23.7, 0.0, 2.0, -800.0, &[(1, 20.0, 30.0), (2, 5.0, 200.0)]);
+        let (x, revs) = signal(
+            fs,
+            23.7,
+            0.0,
+            2.0,
+            -800.0,
+            &[(1, 20.0, 30.0), (2, 5.0, 200.0)],
+        );
         let mut calc = VectorCalculator::new(&VectorConfig::default(), 1).expect("valid");
         let mut got = 0;
         for r in &revs {
-            let v = calc.process(r, 0.0, fs, &[&x]).expect("one vector per turn");
+            let v = calc
+                .process(r, 0.0, fs, &[&x])
+                .expect("one vector per turn");
             got += 1;
             let (v1, v2) = (v.vectors[0], v.vectors[1]);
             // Tolerances: f32 samples with a DC 40 times the 1X carry about 1e-5 relative rounding.
@@ -541,12 +554,17 @@ mod tests {
         for r in &revs {
             let v = calc.process(r, 0.0, fs, &[&x]).expect("vector");
             assert!((v.vectors[0] - from_amp_lag(1.0, 90.0)).norm() < 2e-4);
-            assert!(v.vectors[1].norm() < 2e-4, "2X leak {}", v.vectors[1].norm());
+            assert!(
+                v.vectors[1].norm() < 2e-4,
+                "2X leak {}",
+                v.vectors[1].norm()
+            );
             assert!((v.vectors[2] - from_amp_lag(0.5, 10.0)).norm() < 2e-4);
         }
     }
 
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn matches_direct_formula_with_sin_cos_per_sample() {
         // The recurrence against the obviously correct sum with sin_cos at every sample.
         let fs = 7777.0;
@@ -558,7 +576,8 @@ mod tests {
             let pos_b = r.t_end * fs;
             let (ia, ib) = (pos_a.round() as usize, pos_b.round() as usize);
             for (k, ord) in [1.0, 2.0].iter().enumerate() {
-                let (mut s, mut s1, mut m, mut w) = (Complex64::new(0.0, 0.0), Complex64::new(0.0, 0.0), 0.0, 0.0);
+                let (mut s, mut s1, mut m, mut w) =
+                    (Complex64::new(0.0, 0.0), Complex64::new(0.0, 0.0), 0.0, 0.0);
                 for i in ia..=ib {
                     let share = if i == ia {
                         ia as f64 + 0.5 - pos_a

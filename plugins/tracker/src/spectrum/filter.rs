@@ -77,17 +77,6 @@ impl Biquad {
         self.s2 = self.b2 * x1 - self.a2 * y1;
     }
 
-    /// One sample through the section, recording the history (the slow path, used for the last
-    /// samples of a run).
-    #[inline]
-    fn step_recording(&mut self, x: f64) -> f64 {
-        let y = self.b0 * x + self.s1;
-        self.s1 = self.b1 * x - self.a1 * y + self.s2;
-        self.s2 = self.b2 * x - self.a2 * y;
-        self.hist = [x, self.hist[0], y, self.hist[2]];
-        y
-    }
-
     /// Complex response at `w` rad/sample.
     fn response(&self, w: f64) -> (f64, f64) {
         // H = (b0 + b1 z⁻¹ + b2 z⁻²) / (1 + a1 z⁻¹ + a2 z⁻²), z⁻¹ = e^{−jw}.

@@ -171,6 +171,26 @@ impl OrderTracker {
         }
     }
 
+    /// Appends samples whose first has overall index `start_index` (time `t0 + start_index / fs`),
+    /// so a caller can hand over only the stretches the order map needs. A stretch that leaves a
+    /// hole after the buffered samples starts the buffer afresh (the filter re-primes on it); one
+    /// that overlaps them adds only its new part.
+    pub fn push_samples_at(&mut self, start_index: u64, x: &[f32]) {
+        let end = self.first_index + self.samples.len() as u64;
+        if start_index > end {
+            self.samples.clear();
+            self.first_index = start_index;
+            self.filtered_to = start_index;
+            self.filter.invalidate();
+            self.reset_block();
+        }
+        let end = self.first_index + self.samples.len() as u64;
+        let held = end.saturating_sub(start_index) as usize;
+        if held < x.len() {
+            self.push_samples(&x[held..]);
+        }
+    }
+
     /// Resamples one revolution into the current block; returns the block's spectrum once it holds
     /// `revs_per_block` consecutive revolutions.
     ///
