@@ -20,6 +20,40 @@ pub(crate) enum Command {
     Analyze(AnalyzeArgs),
     /// Write a synthetic recording (CSV or WAV) of a simulated machine.
     Simulate(SimulateArgs),
+    /// Run the watch daemon: ingest every machine's folder or serial line, store, raise alerts.
+    Watch(WatchArgs),
+    /// Machines, current speed, margins to their criticals, open alerts, last data.
+    Status(StatusArgs),
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct WatchArgs {
+    /// The plant configuration (TOML).
+    #[arg(long)]
+    pub config: PathBuf,
+    /// Log as JSON lines instead of readable text.
+    #[arg(long)]
+    pub log_json: bool,
+}
+
+/// Where stored data is read from: a configuration (which names the database) or the database.
+#[derive(Debug, Args, Clone)]
+pub(crate) struct DbArgs {
+    /// The plant configuration (TOML); the database it names is read.
+    #[arg(long, conflicts_with = "db")]
+    pub config: Option<PathBuf>,
+    /// The database itself.
+    #[arg(long)]
+    pub db: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct StatusArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Which edge of the tach pulse counts.
@@ -151,13 +185,22 @@ pub(crate) struct SimulateArgs {
     /// For pcm16 WAV: the sample value stored as full scale (values beyond are clipped).
     #[arg(long, default_value_t = 1000.0)]
     pub full_scale: f32,
+    /// Write the byte stream a data logger would send on a serial line instead of a CSV or WAV
+    /// file: `text` lines or binary `frames` (see docs/serial-format.md), whatever the extension.
+    #[arg(long, value_parser = ["text", "frames"])]
+    pub serial: Option<String>,
 }
 
 #[derive(Debug, Args)]
 pub(crate) struct DemoArgs {
-    /// Machine of the demo plant.
-    #[arg(long, default_value = "tg-1")]
-    pub machine: String,
+    /// Analyse only this machine of the demo plant (tg-1, comp-3, fan-2). Without it, tg-1 is
+    /// analysed and then the whole plant runs through the daemon.
+    #[arg(long)]
+    pub machine: Option<String>,
+    /// Folder for the plant's configuration, recordings and database (default: a new folder
+    /// under the system's temporary folder).
+    #[arg(long)]
+    pub dir: Option<std::path::PathBuf>,
     /// Print one JSON document instead of the table.
     #[arg(long)]
     pub json: bool,

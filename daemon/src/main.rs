@@ -4,13 +4,19 @@
 //! stderr with a non-zero exit code. Everything that computes lives in the `veer-tracker` crate;
 //! this crate reads files, builds the engine's configuration and prints results.
 
+mod alerts;
 mod cli;
 mod cmd;
+mod config;
 mod decode;
+mod ingest;
 mod pipeline;
 mod plant;
 mod report;
+mod serial;
 mod setup;
+mod timefmt;
+mod watch;
 
 use clap::Parser;
 use std::process::ExitCode;

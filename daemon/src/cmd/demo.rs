@@ -10,7 +10,8 @@ use anyhow::{anyhow, Result};
 use veer_tracker::sim::{SimConfig, Simulator};
 
 pub(crate) fn run(a: DemoArgs) -> Result<()> {
-    let m = plant::machine(&a.machine)?;
+    let started = std::time::Instant::now();
+    let m = plant::machine(a.machine.as_deref().unwrap_or("tg-1"))?;
     let sim_cfg = SimConfig {
         // 12.8 kHz is ample for 1X and 2X of these machines and keeps the demo quick.
         sample_rate: 12_800.0,
@@ -43,13 +44,35 @@ pub(crate) fn run(a: DemoArgs) -> Result<()> {
     let cfg = engine_config(&track, &names)?;
     let label = format!("demo: {} ({}), simulated", m.name, m.id);
     let analysis = analyze_simulation(sim, cfg, &label)?;
+    // Without --machine, the whole plant also goes through the daemon.
+    let plant = if a.machine.is_none() {
+        Some(super::plant_demo::run(a.dir.clone())?)
+    } else {
+        None
+    };
     if a.json {
-        let mut text = serde_json::to_string_pretty(&json::document(&analysis))?;
+        let mut doc = json::document(&analysis);
+        if let Some(p) = &plant {
+            doc["plant"] = serde_json::json!({
+                "dir": p.dir.display().to_string(),
+                "alerts": p.alerts.iter().map(|r| serde_json::json!({
+                    "machine": r.machine, "kind": r.kind, "severity": r.severity.as_str(),
+                    "opened_at": r.opened_at, "closed_at": r.closed_at, "message": r.message,
+                    "evidence": r.evidence.as_deref().and_then(|e| serde_json::from_str::<serde_json::Value>(e).ok()),
+                })).collect::<Vec<_>>(),
+                "status": p.status,
+            });
+        }
+        let mut text = serde_json::to_string_pretty(&doc)?;
         text.push('\n');
         super::print_out(&text)?;
     } else {
-        super::print_out(&table::render(&analysis))?;
-        eprintln!("(simulated and analysed in {:.2} s)", analysis.elapsed_s);
+        let mut text = table::render(&analysis);
+        if let Some(p) = &plant {
+            text.push_str(&super::plant_demo::render(p));
+        }
+        super::print_out(&text)?;
+        eprintln!("(done in {:.1} s)", started.elapsed().as_secs_f64());
     }
     Ok(())
 }

@@ -2,7 +2,10 @@
 
 mod analyze;
 mod demo;
+mod plant_demo;
 mod simulate;
+mod status;
+mod watch;
 
 use crate::cli::{Cli, Command};
 use anyhow::Result;
@@ -13,6 +16,8 @@ pub(crate) fn run(cli: Cli) -> Result<()> {
         Command::Analyze(a) => analyze::run(a),
         Command::Simulate(a) => simulate::run(a),
         Command::Demo(a) => demo::run(a),
+        Command::Watch(a) => watch::run(a),
+        Command::Status(a) => status::run(a),
     }
 }
 

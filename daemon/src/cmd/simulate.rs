@@ -3,7 +3,10 @@
 use crate::cli::SimulateArgs;
 use crate::decode::{CsvWriter, WavFormat, WavWriter};
 use crate::plant;
+use crate::serial::frames::{FrameEncoder, SampleFormat};
+use crate::serial::text::TextEncoder;
 use anyhow::{anyhow, bail, Context, Result};
+use std::io::Write;
 use std::path::Path;
 use veer_tracker::sim::{SimConfig, Simulator, SpeedProfile, TachSim, Tone};
 
@@ -150,6 +153,9 @@ fn write(sim: &mut Simulator, names: &[String], out: &Path, a: &SimulateArgs) ->
         n
     };
     let mut frames = 0u64;
+    if let Some(kind) = &a.serial {
+        return write_serial(kind, sim, &refs, out, &mut next);
+    }
     match ext.as_str() {
         "csv" => {
             let mut w = CsvWriter::create(out, &refs, sim.sample_rate(), 0.0)?;
@@ -198,5 +204,48 @@ fn write(sim: &mut Simulator, names: &[String], out: &Path, a: &SimulateArgs) ->
         }
         _ => bail!("{}: the extension must be .csv or .wav", out.display()),
     }
+    Ok(frames)
+}
+
+/// Writes the simulation as the serial byte stream of `kind` (`text` or `frames`): what a logger
+/// would send, for replaying into a pseudo-terminal.
+fn write_serial(
+    kind: &str,
+    sim: &mut Simulator,
+    names: &[&str],
+    out: &Path,
+    next: &mut impl FnMut(&mut Simulator, &mut [Vec<f32>]) -> usize,
+) -> Result<u64> {
+    enum Enc {
+        Text(TextEncoder),
+        Frames(FrameEncoder),
+    }
+    let rate = sim.sample_rate();
+    let mut enc = match kind {
+        "text" => Enc::Text(TextEncoder::new(names, rate)?),
+        "frames" => Enc::Frames(FrameEncoder::new(names.len(), rate, SampleFormat::F32)?),
+        other => bail!("--serial `{other}`: use text or frames"),
+    };
+    let file = std::fs::File::create(out).with_context(|| format!("{}", out.display()))?;
+    let mut w = std::io::BufWriter::new(file);
+    let mut cols: Vec<Vec<f32>> = vec![Vec::with_capacity(65_536); names.len()];
+    let mut bytes = Vec::new();
+    let mut frames = 0u64;
+    loop {
+        let n = next(sim, &mut cols);
+        if n == 0 {
+            break;
+        }
+        let views: Vec<&[f32]> = cols.iter().map(|c| c.as_slice()).collect();
+        bytes.clear();
+        match &mut enc {
+            Enc::Text(e) => e.encode(&views, &mut bytes)?,
+            Enc::Frames(e) => e.encode(&views, &mut bytes)?,
+        }
+        w.write_all(&bytes)
+            .with_context(|| format!("{}", out.display()))?;
+        frames += n as u64;
+    }
+    w.flush().with_context(|| format!("{}", out.display()))?;
     Ok(frames)
 }

@@ -3,7 +3,9 @@
 use super::error::ConfigError;
 use super::key::KeyPath;
 use super::model::Machine;
-use veer_tracker::config::{ChannelConfig, ConfigError as EngineError, EngineConfig, MarginSettings};
+use veer_tracker::config::{
+    ChannelConfig, ConfigError as EngineError, EngineConfig, MarginSettings,
+};
 use veer_tracker::margin::{MarginRule, OperatingRange};
 use veer_tracker::spectrum::OrderMapConfig;
 use veer_tracker::states::StateConfig;
@@ -85,7 +87,9 @@ impl Machine {
             EngineError::Vectors(_) | EngineError::States(_) => key.key("tracking"),
             EngineError::OrderMap(_) => key.key("tracking").key("order_map"),
             EngineError::Margin(_) => key.key("alerts"),
-            EngineError::Invalid { field, .. } if field.starts_with("channels") => key.key("sensors"),
+            EngineError::Invalid { field, .. } if field.starts_with("channels") => {
+                key.key("sensors")
+            }
             EngineError::Invalid { field, .. } if field == "warn_band_pct" => key.key("alerts"),
             _ => key.key("tracking"),
         };

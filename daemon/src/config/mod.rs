@@ -19,12 +19,16 @@
 //! The validated types ([`model::Machine`] and its parts) are in [`model`]; key paths as errors
 //! print them are in [`key`].
 
+mod alerts;
+mod channels;
+mod check;
 mod engine;
 mod error;
 pub(crate) mod key;
 mod locate;
 pub(crate) mod model;
 mod raw;
+mod source;
 mod validate;
 
 #[cfg(test)]
@@ -48,12 +52,21 @@ pub(crate) fn load(path: &Path) -> Result<Config, ConfigError> {
 /// errors and is the base of relative paths.
 pub(crate) fn parse(text: &str, origin: &Path) -> Result<Config, ConfigError> {
     let tree: locate::Node = toml::from_str(text).map_err(|e| {
-        let (line, column) = locate::line_column(text, e.span().map_or(0, |s| s.start));
+        let span = e.span().unwrap_or(0..0);
+        let (line, column) = locate::line_column(text, span.start);
+        let mut message = error::one_line(e.message());
+        // Some messages ("duplicate key") do not say which; the text at fault does.
+        if let Some(at) = text
+            .get(span)
+            .filter(|t| !t.trim().is_empty() && t.len() <= 40 && !t.contains('\n'))
+        {
+            message = format!("{message} (at `{}`)", at.trim().escape_debug());
+        }
         ConfigError::Syntax {
             file: origin.to_path_buf(),
             line,
             column,
-            message: error::one_line(e.message()),
+            message,
         }
     })?;
     let raw: raw::RawConfig = toml::from_str(text).map_err(|e| {

@@ -95,54 +95,53 @@ pub(super) struct RawMachine {
     pub alerts: RawAlerts,
 }
 
-/// `source = { kind = ..., ... }`.
-#[derive(Debug, Deserialize)]
-#[serde(tag = "kind", rename_all = "lowercase")]
-pub(super) enum RawSource {
+/// The kinds of source.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub(super) enum RawSourceKind {
     /// Capture files dropped into a folder.
-    Folder(RawFolder),
+    Folder,
     /// A data logger streaming on a serial line.
-    Serial(RawSerial),
+    Serial,
 }
 
+/// `source = { kind = ..., ... }`. One flat struct for both kinds rather than a tagged enum, so
+/// that a wrong type is reported at its own key (a tagged enum buffers the table and loses the
+/// key's position); which keys belong to which kind is checked in validation.
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
-pub(super) struct RawFolder {
-    pub path: String,
-    #[serde(default = "default_pattern")]
-    pub pattern: String,
+pub(super) struct RawSource {
+    pub kind: RawSourceKind,
     #[serde(default)]
-    pub sample_rate: Option<f64>,
-    #[serde(default = "default_settle_s")]
-    pub settle_s: f64,
+    pub path: Option<String>,
+    #[serde(default)]
+    pub pattern: Option<String>,
+    #[serde(default)]
+    pub settle_s: Option<f64>,
     #[serde(default)]
     pub failed_dir: Option<String>,
-}
-
-fn default_pattern() -> String {
-    "*.csv,*.wav".to_string()
-}
-
-fn default_settle_s() -> f64 {
-    2.0
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(super) struct RawSerial {
-    pub port: String,
-    pub baud: u32,
     #[serde(default)]
-    pub format: SerialFormat,
-    pub sample_rate: f64,
-    pub channels: Vec<String>,
-    #[serde(default = "default_reconnect_max_s")]
-    pub reconnect_max_s: f64,
+    pub sample_rate: Option<f64>,
+    #[serde(default)]
+    pub port: Option<String>,
+    #[serde(default)]
+    pub baud: Option<u32>,
+    #[serde(default)]
+    pub format: Option<SerialFormat>,
+    #[serde(default)]
+    pub channels: Option<Vec<String>>,
+    #[serde(default)]
+    pub reconnect_max_s: Option<f64>,
 }
 
-fn default_reconnect_max_s() -> f64 {
-    30.0
-}
+/// File names a folder source reads unless told otherwise.
+pub(super) const DEFAULT_PATTERN: &str = "*.csv,*.wav";
+
+/// Seconds a file must stay unchanged before it is read, unless told otherwise.
+pub(super) const DEFAULT_SETTLE_S: f64 = 2.0;
+
+/// Longest wait between reconnection attempts to a serial port, s, unless told otherwise.
+pub(super) const DEFAULT_RECONNECT_MAX_S: f64 = 30.0;
 
 /// The edge of the tach pulse, as written.
 #[derive(Clone, Copy, Debug, Default, Deserialize)]
@@ -361,48 +360,43 @@ impl Default for RawAlerts {
             // API 670 Annex I: setpoints raised, usually 2× or 3×, while criticals are passed
             // (REFERENCES §1.4, confirmed from trade sources); the lower of the two.
             startup_multiplier: 2.0,
-            outputs: vec![RawOutput::Log(RawLog::default())],
+            outputs: vec![RawOutput {
+                kind: RawOutputKind::Log,
+                path: None,
+                argv: None,
+                timeout_s: None,
+                min_severity: Severity::Warning,
+            }],
         }
     }
 }
 
-/// One entry of `outputs = [ ... ]`.
-#[derive(Debug, Deserialize)]
-#[serde(tag = "kind", rename_all = "lowercase")]
-pub(super) enum RawOutput {
+/// The kinds of alert output.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub(super) enum RawOutputKind {
     /// The daemon's log.
-    Log(RawLog),
+    Log,
     /// One JSON document per line, appended to a file.
-    Jsonl(RawJsonl),
+    Jsonl,
     /// A program run for each alert.
-    Command(RawCommand),
+    Command,
 }
 
-#[derive(Debug, Default, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(super) struct RawLog {
-    #[serde(default)]
-    pub min_severity: Severity,
-}
-
+/// One entry of `outputs = [ ... ]`, flat for the same reason as [`RawSource`].
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
-pub(super) struct RawJsonl {
-    pub path: String,
+pub(super) struct RawOutput {
+    pub kind: RawOutputKind,
+    #[serde(default)]
+    pub path: Option<String>,
+    #[serde(default)]
+    pub argv: Option<Vec<String>>,
+    #[serde(default)]
+    pub timeout_s: Option<f64>,
     #[serde(default)]
     pub min_severity: Severity,
 }
 
-#[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub(super) struct RawCommand {
-    pub argv: Vec<String>,
-    #[serde(default = "default_timeout_s")]
-    pub timeout_s: f64,
-    #[serde(default)]
-    pub min_severity: Severity,
-}
-
-fn default_timeout_s() -> f64 {
-    10.0
-}
+/// Seconds after which an alert command is stopped, unless told otherwise.
+pub(super) const DEFAULT_TIMEOUT_S: f64 = 10.0;

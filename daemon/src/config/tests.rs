@@ -1,6 +1,6 @@
 //! Tests of loading: the example plant, each kind of mistake, and path resolution.
 
-use super::model::{CriticalOrigin, OutputKind, Severity, Source};
+use super::model::{CriticalOrigin, LogFormat, OutputKind, Severity, Source};
 use super::*;
 use std::path::PathBuf;
 use veer_tracker::config::SlowRoll;
@@ -37,7 +37,10 @@ fn err(text: &str) -> String {
     let e = parse(text, &origin()).expect_err("the configuration should be refused");
     let msg = e.to_string();
     assert!(!msg.contains('\n'), "not one line: {msg:?}");
-    assert!(msg.starts_with("/srv/plant/plant.toml"), "does not name the file: {msg}");
+    assert!(
+        msg.starts_with("/srv/plant/plant.toml"),
+        "does not name the file: {msg}"
+    );
     msg
 }
 
@@ -59,7 +62,9 @@ fn example_parses_and_every_engine_config_validates() {
     assert_eq!(ids, ["tg-1", "comp-3", "fan-2"]);
     assert_eq!(cfg.database, Path::new("/etc/veer/veer.db"));
     for m in &cfg.machines {
-        let e = m.engine_config().expect("engine settings of the example are valid");
+        let e = m
+            .engine_config()
+            .expect("engine settings of the example are valid");
         e.validate().expect("and stay valid");
         assert_eq!(e.tach.ppr, m.tach.decoder.ppr);
         let names: Vec<&str> = e.channels.iter().map(|c| c.name.as_str()).collect();
@@ -108,7 +113,9 @@ fn example_describes_the_demo_plant() {
     let demo = crate::plant::machines();
     assert_eq!(cfg.machines.len(), demo.len());
     for d in &demo {
-        let m = cfg.machine(d.id).unwrap_or_else(|| panic!("{} missing from the example", d.id));
+        let m = cfg
+            .machine(d.id)
+            .unwrap_or_else(|| panic!("{} missing from the example", d.id));
         assert_eq!(m.name, d.name);
         assert_eq!(m.min_operating_rpm, d.min_operating_rpm, "{}", d.id);
         assert_eq!(m.max_continuous_rpm, d.max_continuous_rpm, "{}", d.id);
@@ -119,6 +126,19 @@ fn example_describes_the_demo_plant() {
             assert_eq!(s.amplitude.unit, unit, "{}", d.id);
             assert_eq!(s.angle_deg, c.probe_angle_deg, "{} {}", d.id, c.name);
         }
+        // The plausible tach window admits every speed the demo plays.
+        let top = d.profile.iter().map(|p| p.1).fold(0.0, f64::max);
+        let low = d.profile.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
+        assert!(
+            m.tach.decoder.max_rpm > top,
+            "{}: tach max_rpm below {top}",
+            d.id
+        );
+        assert!(
+            m.tach.decoder.min_rpm < low,
+            "{}: tach min_rpm above {low}",
+            d.id
+        );
         // The design criticals are the simulated rotor's modes, with AF ≈ 1/(2ζ) for light
         // damping (REFERENCES §1.1: Q = 1/(2ζ)), rounded in the file to 0.1.
         let modes = &d.channels[0].modes;
@@ -211,7 +231,11 @@ fn service_layout_puts_every_file_under_the_state_directory() {
     assert!(cfg.database.starts_with(state));
     for m in &cfg.machines {
         if let Source::Folder(f) = &m.source {
-            assert!(f.path.starts_with(state) && f.failed_dir.starts_with(state), "{}", m.id);
+            assert!(
+                f.path.starts_with(state) && f.failed_dir.starts_with(state),
+                "{}",
+                m.id
+            );
         }
         for o in &m.alerts.outputs {
             if let OutputKind::Jsonl { path } = &o.kind {
@@ -223,7 +247,10 @@ fn service_layout_puts_every_file_under_the_state_directory() {
 
 #[test]
 fn unknown_key_is_named_with_its_path() {
-    let msg = err(&edit("tach = { channel = \"tach\" }", "tach = { channel = \"tach\", pppr = 2 }"));
+    let msg = err(&edit(
+        "tach = { channel = \"tach\" }",
+        "tach = { channel = \"tach\", pppr = 2 }",
+    ));
     assert!(msg.contains("machine[0] (fan-2).tach.pppr"), "{msg}");
     assert!(msg.contains("unknown field `pppr`"), "{msg}");
     assert!(msg.contains("line 8"), "{msg}");
@@ -236,18 +263,41 @@ fn unknown_key_is_named_with_its_path() {
 
 #[test]
 fn unknown_key_inside_a_source_names_the_source() {
-    let msg = err(&edit("path = \"incoming/fan-2\"", "path = \"incoming/fan-2\", bauds = 9600"));
-    assert!(msg.contains("machine[0] (fan-2).source"), "{msg}");
-    assert!(msg.contains("bauds"), "{msg}");
+    let msg = err(&edit(
+        "path = \"incoming/fan-2\"",
+        "path = \"incoming/fan-2\", bauds = 9600",
+    ));
+    assert!(
+        msg.contains("machine[0] (fan-2).source.bauds: unknown field"),
+        "{msg}"
+    );
+    // A key of the other kind of source.
+    let msg = err(&edit(
+        "path = \"incoming/fan-2\"",
+        "path = \"incoming/fan-2\", baud = 9600",
+    ));
+    assert!(
+        msg.contains("source.baud: is not a setting of a folder source"),
+        "{msg}"
+    );
 }
 
 #[test]
 fn wrong_type_is_named() {
-    let msg = err(&edit("min_operating_rpm = 600", "min_operating_rpm = \"600 rpm\""));
-    assert!(msg.contains("machine[0] (fan-2).min_operating_rpm"), "{msg}");
+    let msg = err(&edit(
+        "min_operating_rpm = 600",
+        "min_operating_rpm = \"600 rpm\"",
+    ));
+    assert!(
+        msg.contains("machine[0] (fan-2).min_operating_rpm"),
+        "{msg}"
+    );
     assert!(msg.contains("line 5"), "{msg}");
     let msg = err(&with("[machine.tracking]\norders = [1, \"2X\"]"));
-    assert!(msg.contains("machine[0] (fan-2).tracking.orders[1]"), "{msg}");
+    assert!(
+        msg.contains("machine[0] (fan-2).tracking.orders[1]"),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -263,17 +313,36 @@ fn missing_required_key_is_named() {
 #[test]
 fn syntax_error_gives_line_and_column() {
     let msg = err(&edit("id = \"fan-2\"", "id = \"fan-2"));
-    assert!(msg.starts_with("/srv/plant/plant.toml line 4, column "), "{msg}");
+    assert!(
+        msg.starts_with("/srv/plant/plant.toml line 4, column "),
+        "{msg}"
+    );
     let msg = err("database = \"veer.db\"\ndatabase = \"other.db\"\n");
-    assert!(msg.contains("line 2"), "{msg}");
+    assert!(
+        msg.contains("line 2, column 1: duplicate key") && msg.contains("database"),
+        "{msg}"
+    );
+    let msg = err(&with("[machine.tracking]\norders = [1, 2"));
+    assert!(msg.contains("line 11, column 15: unclosed array"), "{msg}");
 }
 
 #[test]
 fn duplicate_machine_id_is_refused() {
-    let second = MINIMAL.replace("database = \"data/veer.db\"\n", "").replace("incoming/fan-2", "incoming/other");
+    let second = MINIMAL
+        .replace("database = \"data/veer.db\"\n", "")
+        .replace("incoming/fan-2", "incoming/other");
     let msg = err(&format!("{MINIMAL}{second}"));
     assert!(msg.contains("machine[1] (fan-2).id"), "{msg}");
     assert!(msg.contains("unique"), "{msg}");
+    // Two machines reading one folder would each take the other's files.
+    let second = MINIMAL
+        .replace("database = \"data/veer.db\"\n", "")
+        .replace("id = \"fan-2\"", "id = \"fan-3\"");
+    let msg = err(&format!("{MINIMAL}{second}"));
+    assert!(
+        msg.contains("machine[1] (fan-3).source: an earlier machine"),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -290,20 +359,40 @@ fn bad_units_are_named() {
     assert!(msg.contains("machine[0] (fan-2).sensors[0].units"), "{msg}");
     assert!(msg.contains("furlong"), "{msg}");
     // A kind that contradicts the unit.
-    let msg = err(&edit("units = \"mm/s\"", "units = \"mm/s\", kind = \"displacement\""));
+    let msg = err(&edit(
+        "units = \"mm/s\"",
+        "units = \"mm/s\", kind = \"displacement\"",
+    ));
     assert!(msg.contains("sensors[0].units"), "{msg}");
-    let msg = err(&edit("units = \"mm/s\"", "units = \"mm/s\", detection = \"average\""));
+    let msg = err(&edit(
+        "units = \"mm/s\"",
+        "units = \"mm/s\", detection = \"average\"",
+    ));
     assert!(msg.contains("sensors[0].detection"), "{msg}");
 }
 
 #[test]
 fn speed_range_must_be_in_order() {
-    let msg = err(&edit("max_continuous_rpm = 1000", "max_continuous_rpm = 600"));
-    assert!(msg.contains("machine[0] (fan-2).max_continuous_rpm"), "{msg}");
-    let msg = err(&edit("max_continuous_rpm = 1000", "max_continuous_rpm = 1000\ntrip_rpm = 900"));
+    let msg = err(&edit(
+        "max_continuous_rpm = 1000",
+        "max_continuous_rpm = 600",
+    ));
+    assert!(
+        msg.contains("machine[0] (fan-2).max_continuous_rpm"),
+        "{msg}"
+    );
+    let msg = err(&edit(
+        "max_continuous_rpm = 1000",
+        "max_continuous_rpm = 1000\ntrip_rpm = 900",
+    ));
     assert!(msg.contains("machine[0] (fan-2).trip_rpm"), "{msg}");
     let msg = err(&edit("min_operating_rpm = 600", "min_operating_rpm = 0"));
     assert!(msg.contains("min_operating_rpm"), "{msg}");
+    let msg = err(&edit(
+        "max_continuous_rpm = 1000",
+        "max_continuous_rpm = nan",
+    ));
+    assert!(msg.contains("max_continuous_rpm"), "{msg}");
 }
 
 #[test]
@@ -316,17 +405,38 @@ fn bad_margin_rule_is_named() {
     // A number and the same number as text are the same rule.
     let a = ok(&with("[machine.alerts]\nmargin = 12.5"));
     let b = ok(&with("[machine.alerts]\nmargin = \"12.5%\""));
-    assert_eq!(a.machines[0].margin_rule(), MarginRule::Fixed { percent: 12.5 });
+    assert_eq!(
+        a.machines[0].margin_rule(),
+        MarginRule::Fixed { percent: 12.5 }
+    );
     assert_eq!(a.machines[0].margin_rule(), b.machines[0].margin_rule());
 }
 
 #[test]
 fn bad_output_kind_is_named() {
-    let msg = err(&with("[machine.alerts]\noutputs = [ { kind = \"log\" }, { kind = \"email\", to = \"ops\" } ]"));
-    assert!(msg.contains("machine[0] (fan-2).alerts.outputs[1]"), "{msg}");
+    let msg = err(&with(
+        "[machine.alerts]\noutputs = [ { kind = \"log\" }, { kind = \"email\", to = \"ops\" } ]",
+    ));
+    assert!(
+        msg.contains("machine[0] (fan-2).alerts.outputs[1]"),
+        "{msg}"
+    );
     assert!(msg.contains("email"), "{msg}");
-    let msg = err(&with("[machine.alerts]\noutputs = [ { kind = \"command\", argv = [] } ]"));
+    let msg = err(&with(
+        "[machine.alerts]\noutputs = [ { kind = \"command\", argv = [] } ]",
+    ));
     assert!(msg.contains("alerts.outputs[0].argv"), "{msg}");
+    let msg = err(&with(
+        "[machine.alerts]\noutputs = [ { kind = \"jsonl\", path = 5 } ]",
+    ));
+    assert!(
+        msg.contains("alerts.outputs[0].path: invalid type"),
+        "{msg}"
+    );
+    let msg = err(&with(
+        "[machine.alerts]\noutputs = [ { kind = \"jsonl\" } ]",
+    ));
+    assert!(msg.contains("alerts.outputs[0].path: missing"), "{msg}");
     let msg = err(&with("[machine.alerts]\noutputs = []"));
     assert!(msg.contains("alerts.outputs"), "{msg}");
 }
@@ -334,7 +444,10 @@ fn bad_output_kind_is_named() {
 #[test]
 fn channels_must_be_distinct() {
     let msg = err(&edit("channel = \"v\"", "channel = \"tach\""));
-    assert!(msg.contains("sensors[0].channel") && msg.contains("tach channel"), "{msg}");
+    assert!(
+        msg.contains("sensors[0].channel") && msg.contains("tach channel"),
+        "{msg}"
+    );
     let msg = err(&edit(
         "sensors = [ { channel = \"v\", units = \"mm/s\" } ]",
         "sensors = [ { channel = \"v\", units = \"mm/s\" }, { channel = \"v\", units = \"g\" } ]",
@@ -344,34 +457,58 @@ fn channels_must_be_distinct() {
 
 #[test]
 fn serial_source_is_checked() {
-    let serial = |s: &str| edit("source = { kind = \"folder\", path = \"incoming/fan-2\" }", s);
+    let serial = |s: &str| {
+        edit(
+            "source = { kind = \"folder\", path = \"incoming/fan-2\" }",
+            s,
+        )
+    };
     let good = "source = { kind = \"serial\", port = \"/dev/ttyUSB0\", baud = 921600, sample_rate = 2560, channels = [\"tach\", \"v\"] }";
     ok(&serial(good));
     let msg = err(&serial(&good.replace("921600", "0")));
     assert!(msg.contains("source.baud"), "{msg}");
     let msg = err(&serial(&good.replace("[\"tach\", \"v\"]", "[\"tach\"]")));
-    assert!(msg.contains("source.channels") && msg.contains("`v`"), "{msg}");
-    let msg = err(&serial(&good.replace("kind = \"serial\"", "kind = \"modem\"")));
-    assert!(msg.contains("machine[0] (fan-2).source") && msg.contains("modem"), "{msg}");
+    assert!(
+        msg.contains("source.channels") && msg.contains("`v`"),
+        "{msg}"
+    );
+    let msg = err(&serial(
+        &good.replace("kind = \"serial\"", "kind = \"modem\""),
+    ));
+    assert!(
+        msg.contains("machine[0] (fan-2).source") && msg.contains("modem"),
+        "{msg}"
+    );
     // 2X at 1000 r/min is 33.3 Hz: 50 Hz sampling is below its Nyquist rate (sampling theorem).
     let msg = err(&serial(&good.replace("2560", "50")));
     assert!(msg.contains("source.sample_rate"), "{msg}");
     let msg = err(&serial(&good.replace("baud = 921600", "baud = -9600")));
-    assert!(msg.contains("source"), "{msg}");
+    assert!(msg.contains("source.baud: invalid value"), "{msg}");
+    let msg = err(&serial(&good.replace("port = \"/dev/ttyUSB0\", ", "")));
+    assert!(msg.contains("source.port: missing"), "{msg}");
 }
 
 #[test]
 fn tach_settings_are_checked() {
     let tach = |t: &str| edit("tach = { channel = \"tach\" }", t);
     let msg = err(&tach("tach = { channel = \"tach\", ppr = 5000 }"));
-    assert!(msg.ends_with("machine[0] (fan-2).tach.ppr: must be between 1 and 4096 (got 5000)"), "{msg}");
-    let msg = err(&tach("tach = { channel = \"tach\", ppr = 60, gap_teeth = 59 }"));
+    assert!(
+        msg.ends_with("machine[0] (fan-2).tach.ppr: must be between 1 and 4096 (got 5000)"),
+        "{msg}"
+    );
+    let msg = err(&tach(
+        "tach = { channel = \"tach\", ppr = 60, gap_teeth = 59 }",
+    ));
     assert!(msg.contains("tach.gap_teeth"), "{msg}");
     let msg = err(&tach("tach = { channel = \"tach\", trigger = 2.5 }"));
     assert!(msg.contains("tach.rearm"), "{msg}");
-    let msg = err(&tach("tach = { channel = \"tach\", trigger = 2.5, rearm = 3.0 }"));
+    let msg = err(&tach(
+        "tach = { channel = \"tach\", trigger = 2.5, rearm = 3.0 }",
+    ));
     assert!(msg.contains("tach.rearm") && msg.contains("below"), "{msg}");
-    let falling = ok(&tach("tach = { channel = \"tach\", edge = \"falling\", trigger = -8.0, rearm = -6.0 }"));
+    let falling = ok(&tach(
+        "tach = { channel = \"tach\", edge = \"falling\", trigger = -8.0, rearm = -6.0 }",
+    ));
     assert!(falling.machines[0].tach.decoder.levels.is_some());
     let msg = err(&tach("tach = { channel = \"tach\", max_rpm = 900 }"));
     assert!(msg.contains("tach.max_rpm"), "{msg}");
@@ -381,23 +518,43 @@ fn tach_settings_are_checked() {
 
 #[test]
 fn criticals_are_checked() {
-    let msg = err(&with("criticals = [ { rpm = 1210, af = 6.5 }, { rpm = -5 } ]").replace("\n\n", "\n"));
+    let msg =
+        err(&with("criticals = [ { rpm = 1210, af = 6.5 }, { rpm = -5 } ]").replace("\n\n", "\n"));
     assert!(msg.contains("criticals[1].rpm"), "{msg}");
-    let msg = err(&edit("sensors =", "criticals = [ { rpm = 1210, af = 0.5 } ]\nsensors ="));
+    let msg = err(&edit(
+        "sensors =",
+        "criticals = [ { rpm = 1210, af = 0.5 } ]\nsensors =",
+    ));
     assert!(msg.contains("criticals[0].af"), "{msg}");
-    let cfg = ok(&edit("sensors =", "criticals = [ { rpm = 1210 } ]\nsensors ="));
+    let cfg = ok(&edit(
+        "sensors =",
+        "criticals = [ { rpm = 1210 } ]\nsensors =",
+    ));
     assert_eq!(cfg.machines[0].criticals[0].af, None);
 }
 
 #[test]
 fn tracking_and_alert_values_are_checked() {
-    let msg = err(&with("[machine.tracking]\nslow_roll = { min_rpm = 300, max_rpm = 200 }"));
+    let msg = err(&with(
+        "[machine.tracking]\nslow_roll = { min_rpm = 300, max_rpm = 200 }",
+    ));
     assert!(msg.contains("tracking.slow_roll"), "{msg}");
     let msg = err(&with("[machine.tracking]\nslow_roll = \"sometimes\""));
-    assert!(msg.contains("tracking.slow_roll") && msg.contains("sometimes"), "{msg}");
-    let cfg = ok(&with("[machine.tracking]\nslow_roll = { min_rpm = 150, max_rpm = 250 }\norder_map = false"));
+    assert!(
+        msg.contains("tracking.slow_roll") && msg.contains("sometimes"),
+        "{msg}"
+    );
+    let cfg = ok(&with(
+        "[machine.tracking]\nslow_roll = { min_rpm = 150, max_rpm = 250 }\norder_map = false",
+    ));
     let e = cfg.machines[0].engine_config().expect("valid");
-    assert_eq!(e.slow_roll, SlowRoll::Window { min_rpm: 150.0, max_rpm: 250.0 });
+    assert_eq!(
+        e.slow_roll,
+        SlowRoll::Window {
+            min_rpm: 150.0,
+            max_rpm: 250.0
+        }
+    );
     assert!(e.order_map.is_none());
     let msg = err(&with("[machine.tracking]\nbin_pct = 7"));
     assert!(msg.contains("tracking.bin_pct"), "{msg}");
@@ -405,9 +562,12 @@ fn tracking_and_alert_values_are_checked() {
     assert!(msg.contains("alerts.warn_band_pct"), "{msg}");
     let msg = err(&with("[machine.alerts]\nstartup_multiplier = 0.5"));
     assert!(msg.contains("alerts.startup_multiplier"), "{msg}");
-    let msg = err(&format!("[daemon]\nlog_format = \"xml\"\n{MINIMAL}"));
-    assert!(msg.contains("daemon.log_format") && msg.contains("xml"), "{msg}");
-    let msg = err(&format!("[daemon]\nqueues = {{ blocks = 0 }}\n{MINIMAL}"));
+    let msg = err(&format!("{MINIMAL}[daemon]\nlog_format = \"xml\"\n"));
+    assert!(
+        msg.contains("daemon.log_format") && msg.contains("xml"),
+        "{msg}"
+    );
+    let msg = err(&format!("{MINIMAL}[daemon]\nqueues = {{ blocks = 0 }}\n"));
     assert!(msg.contains("daemon.queues.blocks"), "{msg}");
 }
 

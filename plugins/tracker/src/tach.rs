@@ -471,13 +471,13 @@ mod tests {
         let fs = 1000.0;
         let mut x = Vec::new();
         for _ in 0..10 {
-            x.extend(std::iter::repeat(0.0f32).take(50));
+            x.extend(std::iter::repeat_n(0.0f32, 50));
             for k in 0..20 {
                 let ramp = k as f32 / 20.0;
                 let ripple = if k % 2 == 0 { 0.08 } else { -0.08 };
                 x.push(ramp + ripple);
             }
-            x.extend(std::iter::repeat(1.0f32).take(30));
+            x.extend(std::iter::repeat_n(1.0f32, 30));
         }
         let mut dec = TachDecoder::new(&TachConfig::default(), fs, 0.0).expect("valid");
         let mut edges = Vec::new();

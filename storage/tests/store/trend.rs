@@ -18,7 +18,7 @@ fn raw(channel: &str, i: u32) -> TrendRow {
             amplitude: 20.0 + (f * 0.11).cos(),
             phase_deg: (355.0 + f * 0.2) % 360.0,
         },
-        x2: (i % 3 != 0).then_some(Polar {
+        x2: (!i.is_multiple_of(3)).then_some(Polar {
             amplitude: 2.0 + f * 0.01,
             phase_deg: 120.0,
         }),

@@ -161,7 +161,7 @@ fn once_per_turn_dropped_pulses_are_repaired() {
     let cfg = engine_config(&sim);
     let clean = run(&sim, &cfg, false);
     // Blank pulses in the tach samples: every 40th, and pulses 1001 and 1002 in a row.
-    let blank = |n: u64| n % 40 == 0 || n == 1001 || n == 1002;
+    let blank = |n: u64| n.is_multiple_of(40) || n == 1001 || n == 1002;
     let (mut count, mut inside, mut blanking, mut blanked) = (0u64, false, false, 0u64);
     let out = run_with(&sim, &cfg, false, |_, tach| {
         for x in tach.iter_mut() {

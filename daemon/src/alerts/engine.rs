@@ -1,0 +1,541 @@
+//! The alert engine of one machine: feeds each rule, debounces it, and keeps the open alerts.
+
+use super::debounce::{Debounce, Step};
+use super::describe::{Describe, Note};
+use super::drift::{self, DriftFinding};
+use super::health::{self, ChannelHealth, Role};
+use super::level::{multiplier_applies, LevelFinding, Levels};
+use super::margin::MarginFinding;
+use super::shift::{ShiftFinding, ShiftRules};
+use super::speed::SpeedHistory;
+use super::{Alert, AlertChange, AlertKind, HealthProblem, KnownCritical};
+use crate::config::model::{Alerts, Severity};
+use serde_json::json;
+use std::collections::{BTreeMap, HashMap};
+use veer_tracker::margin::{MarginRule, OperatingRange};
+use veer_tracker::states::MachineState;
+
+/// An open alert and when it was first raised.
+#[derive(Clone, Debug)]
+struct Open {
+    alert: Alert,
+    raised_s: f64,
+}
+
+/// The settings the rules read, copied from the machine's configuration.
+#[derive(Clone, Copy, Debug)]
+struct Settings {
+    rule: MarginRule,
+    warn_band_pct: f64,
+    horizon_min: f64,
+    window_min: f64,
+    delay_s: f64,
+    hysteresis_pct: f64,
+    shift_pct: f64,
+    startup_multiplier: f64,
+}
+
+/// The alert rules of one machine, fed with data-time stamped inputs.
+///
+/// Every method takes the data time of its input and returns the alert changes it caused, in
+/// order; nothing reads a clock. Inputs older than what the engine has seen are used as they
+/// come, except speed samples, whose buckets only move forward.
+#[derive(Clone, Debug)]
+pub(crate) struct AlertEngine {
+    machine: String,
+    settings: Settings,
+    range: OperatingRange,
+    sensors: HashMap<String, Levels>,
+    criticals: Vec<KnownCritical>,
+    speed: SpeedHistory,
+    timers: HashMap<AlertKind, HashMap<String, Debounce>>,
+    open: BTreeMap<(AlertKind, String), Open>,
+    health: HashMap<String, ChannelHealth>,
+    pending: Vec<AlertChange>,
+    last_time_s: f64,
+}
+
+impl AlertEngine {
+    /// An engine for machine `machine_id` with its alert settings, operating range, vibration
+    /// sensors (channel, warning and alarm 1X levels) and known criticals.
+    pub fn new(
+        machine_id: &str,
+        alerts: &Alerts,
+        range: OperatingRange,
+        sensors: &[(String, Option<f64>, Option<f64>)],
+        criticals: Vec<KnownCritical>,
+    ) -> Self {
+        let finite_or = |v: f64, d: f64| if v.is_finite() { v } else { d };
+        let settings = Settings {
+            rule: alerts.margin,
+            warn_band_pct: finite_or(alerts.warn_band_pct, 0.0).max(0.0),
+            horizon_min: finite_or(alerts.drift_horizon_min, 0.0).max(0.0),
+            window_min: finite_or(alerts.drift_window_min, 0.0).max(0.0),
+            delay_s: finite_or(alerts.delay_s, 0.0).max(0.0),
+            hysteresis_pct: finite_or(alerts.hysteresis_pct, 0.0).max(0.0),
+            shift_pct: finite_or(alerts.critical_shift_pct, 0.0),
+            startup_multiplier: if alerts.startup_multiplier.is_finite()
+                && alerts.startup_multiplier > 0.0
+            {
+                alerts.startup_multiplier
+            } else {
+                1.0
+            },
+        };
+        let sensors = sensors
+            .iter()
+            .map(|(ch, warning, alarm)| {
+                (
+                    ch.clone(),
+                    Levels {
+                        warning: warning.filter(|l| l.is_finite()),
+                        alarm: alarm.filter(|l| l.is_finite()),
+                    },
+                )
+            })
+            .collect();
+        Self {
+            machine: machine_id.to_string(),
+            speed: SpeedHistory::new(settings.window_min * 60.0),
+            settings,
+            range,
+            sensors,
+            criticals,
+            timers: HashMap::new(),
+            open: BTreeMap::new(),
+            health: HashMap::new(),
+            pending: Vec::new(),
+            last_time_s: f64::NEG_INFINITY,
+        }
+    }
+
+    /// Replaces the known criticals (a measured critical added, a baseline updated).
+    ///
+    /// Alerts of criticals that keep their key carry on; open alerts of criticals that are gone
+    /// are cleared, and the clears come out with the next input's changes.
+    pub fn set_criticals(&mut self, criticals: Vec<KnownCritical>) {
+        let gone: Vec<(AlertKind, String)> = self
+            .open
+            .keys()
+            .filter(|(kind, key)| {
+                matches!(
+                    kind,
+                    AlertKind::Margin | AlertKind::Drift | AlertKind::CriticalShift
+                ) && !key.starts_with("unmatched:")
+                    && !criticals.iter().any(|c| &c.key == key)
+            })
+            .cloned()
+            .collect();
+        self.criticals = criticals;
+        let t = self.last_time_s;
+        for (kind, key) in gone {
+            let note = Note {
+                message: format!("cleared: critical {key} is no longer among the known criticals"),
+                evidence: json!({ "critical_key": key, "removed": true }),
+            };
+            if let Some(change) = self.force_clear(kind, &key, t, &note) {
+                self.pending.push(change);
+            }
+        }
+        for kind in [AlertKind::Margin, AlertKind::Drift] {
+            if let Some(map) = self.timers.get_mut(&kind) {
+                let known = &self.criticals;
+                map.retain(|key, _| known.iter().any(|c| &c.key == key));
+            }
+        }
+    }
+
+    /// A speed sample (per revolution or per second) with the machine's state.
+    ///
+    /// Margin and drift are judged on bucket means when a bucket closes, only at steady speed and
+    /// only while the tach is healthy; any other state interrupts their delays.
+    pub fn on_speed(&mut self, time_s: f64, rpm: f64, state: MachineState) -> Vec<AlertChange> {
+        let mut out = self.begin(time_s);
+        if !time_s.is_finite() {
+            return out;
+        }
+        if self.tach_suspended() || !(rpm.is_finite() && rpm > 0.0) {
+            self.speed.reset();
+            self.interrupt_speed_rules();
+            return out;
+        }
+        let Some(point) = self.speed.push(time_s, rpm, state == MachineState::Steady) else {
+            return out;
+        };
+        if !point.steady {
+            self.interrupt_speed_rules();
+            return out;
+        }
+        let s = self.settings;
+        let criticals = std::mem::take(&mut self.criticals);
+        for c in &criticals {
+            let f = MarginFinding::new(c, point.rpm, s.rule, s.warn_band_pct, s.hysteresis_pct);
+            out.extend(self.judge(
+                AlertKind::Margin,
+                &c.key,
+                point.t,
+                f.raw(),
+                f.recovered(),
+                &f,
+            ));
+        }
+        if s.horizon_min > 0.0 {
+            if let Some(fit) = drift::fit(self.speed.points(), self.speed.window_s()) {
+                for c in &criticals {
+                    let f = DriftFinding::new(
+                        fit,
+                        c,
+                        s.rule,
+                        s.warn_band_pct,
+                        s.window_min,
+                        s.horizon_min,
+                    );
+                    let raw = f.due().then_some(Severity::Warning);
+                    let recovered = f.recovered(s.hysteresis_pct);
+                    out.extend(self.judge(AlertKind::Drift, &c.key, point.t, raw, recovered, &f));
+                }
+            }
+        }
+        self.criticals = criticals;
+        out
+    }
+
+    /// A 1X amplitude of `channel` at speed `rpm` in `state`.
+    pub fn on_level(
+        &mut self,
+        time_s: f64,
+        channel: &str,
+        amplitude_1x: f64,
+        rpm: f64,
+        state: MachineState,
+    ) -> Vec<AlertChange> {
+        let mut out = self.begin(time_s);
+        let Some(&levels) = self.sensors.get(channel) else {
+            return out;
+        };
+        if self.suspended(channel) {
+            self.interrupt(AlertKind::Level1x, channel);
+            return out;
+        }
+        if !(time_s.is_finite() && amplitude_1x.is_finite()) {
+            return out;
+        }
+        let multiplier = if multiplier_applies(state, rpm, self.range.min_rpm) {
+            self.settings.startup_multiplier
+        } else {
+            1.0
+        };
+        let f = LevelFinding {
+            channel,
+            amplitude: amplitude_1x,
+            rpm,
+            state,
+            multiplier,
+            levels,
+            hysteresis_pct: self.settings.hysteresis_pct,
+        };
+        out.extend(self.judge(
+            AlertKind::Level1x,
+            channel,
+            time_s,
+            f.raw(),
+            f.recovered(),
+            &f,
+        ));
+        out
+    }
+
+    /// The criticals an event (run-up or coast-down) found: channel, speed, AF.
+    ///
+    /// Judged at once, without the delay (an event is already minutes of evidence). Where several
+    /// channels found the same critical, the worst finding speaks for it. Finds from unhealthy
+    /// channels are ignored, and a known critical the event did not find keeps its alert as it is
+    /// (a coast-down that stopped short of it says nothing about it).
+    pub fn on_event_criticals(
+        &mut self,
+        time_s: f64,
+        found: &[(String, f64, Option<f64>)],
+    ) -> Vec<AlertChange> {
+        let mut out = self.begin(time_s);
+        let s = &self.settings;
+        let rules = ShiftRules {
+            range: self.range,
+            rule: s.rule,
+            limit_pct: s.shift_pct,
+            warn_band_pct: s.warn_band_pct,
+            hysteresis_pct: s.hysteresis_pct,
+        };
+        let mut worst: BTreeMap<String, ShiftFinding> = BTreeMap::new();
+        let mut channels: Vec<&str> = Vec::new();
+        for (channel, rpm, af) in found {
+            if self.suspended(channel) || !(rpm.is_finite() && *rpm > 0.0) {
+                continue;
+            }
+            if !channels.contains(&channel.as_str()) {
+                channels.push(channel);
+            }
+            let f = ShiftFinding::new(channel, *rpm, *af, &self.criticals, &rules);
+            let rank = |f: &ShiftFinding| (f.raw(), !f.recovered());
+            match worst.get(&f.key()) {
+                Some(w) if rank(w) >= rank(&f) => {}
+                _ => {
+                    worst.insert(f.key(), f);
+                }
+            }
+        }
+        let stale: Vec<String> = channels
+            .iter()
+            .map(|ch| format!("unmatched:{ch}"))
+            .filter(|k| !worst.contains_key(k) && self.is_open(AlertKind::CriticalShift, k))
+            .collect();
+        for (key, f) in &worst {
+            let timer = self.timer(AlertKind::CriticalShift, key);
+            let step = match f.raw() {
+                Some(severity) => timer.force(time_s, severity),
+                None if f.recovered() => timer.force_clear(),
+                None => None,
+            };
+            if let Some(step) = step {
+                let onset = timer.onset();
+                out.push(self.record(AlertKind::CriticalShift, key, time_s, step, onset, f));
+            }
+        }
+        for key in stale {
+            let note = Note {
+                message: format!("cleared: the last event found no unknown critical ({key})"),
+                evidence: json!({ "key": key }),
+            };
+            out.extend(self.force_clear(AlertKind::CriticalShift, &key, time_s, &note));
+        }
+        out
+    }
+
+    /// A health report of `channel` (a vibration sensor, or the tach: any channel that is not one
+    /// of the machine's sensors is taken for the tach or the stream as a whole): `None` when healthy.
+    ///
+    /// Problems are raised at once; a clear follows `delay_s` of health. Call it whenever health
+    /// is checked, not only on changes, so a clear can be seen.
+    pub fn on_health(
+        &mut self,
+        time_s: f64,
+        channel: &str,
+        problem: Option<HealthProblem>,
+    ) -> Vec<AlertChange> {
+        let mut out = self.begin(time_s);
+        let role = self.role(channel);
+        self.health
+            .entry(channel.to_string())
+            .or_default()
+            .report(time_s, problem);
+        if let Some(p) = problem {
+            if !matches!(p, HealthProblem::Gap { .. }) {
+                match role {
+                    Role::Tach => {
+                        self.speed.reset();
+                        self.interrupt_speed_rules();
+                    }
+                    Role::Sensor => self.interrupt(AlertKind::Level1x, channel),
+                }
+            }
+            let severity = health::severity(role, p);
+            let timer = self.timer(AlertKind::SensorHealth, channel);
+            if let Some(step) = timer.force(time_s, severity) {
+                let onset = timer.onset();
+                let note = Note {
+                    message: health::message(role, channel, p),
+                    evidence: health::evidence(role, channel, Some(p)),
+                };
+                out.push(self.record(AlertKind::SensorHealth, channel, time_s, step, onset, &note));
+            }
+        }
+        out.extend(self.clear_healthy(time_s));
+        out
+    }
+
+    /// The alerts open now, ordered by kind and key.
+    pub fn open_alerts(&self) -> Vec<Alert> {
+        self.open.values().map(|o| o.alert.clone()).collect()
+    }
+
+    /// Changes left from `set_criticals`, and health alerts whose channel has been well long
+    /// enough, at the start of any input.
+    fn begin(&mut self, time_s: f64) -> Vec<AlertChange> {
+        if time_s.is_finite() && time_s > self.last_time_s {
+            self.last_time_s = time_s;
+        }
+        let mut out = std::mem::take(&mut self.pending);
+        if !self.health.is_empty() {
+            out.extend(self.clear_healthy(time_s));
+        }
+        out
+    }
+
+    fn clear_healthy(&mut self, t: f64) -> Vec<AlertChange> {
+        let delay = self.settings.delay_s;
+        let due: Vec<(String, f64)> = self
+            .health
+            .iter()
+            .filter_map(|(ch, h)| {
+                let since = h.healthy_since?;
+                (t - since >= delay && self.is_open(AlertKind::SensorHealth, ch))
+                    .then(|| (ch.clone(), since))
+            })
+            .collect();
+        let mut out = Vec::new();
+        for (channel, since) in due {
+            let role = self.role(&channel);
+            let last = self.health.get_mut(&channel).and_then(|h| {
+                h.healthy_since = None;
+                h.last_problem
+            });
+            let mut evidence = health::evidence(role, &channel, None);
+            if let Some(obj) = evidence.as_object_mut() {
+                obj.insert("last_problem".into(), json!(last.map(HealthProblem::name)));
+                obj.insert("healthy_since_s".into(), json!(since));
+            }
+            let note = Note {
+                message: health::cleared(&channel, t - since),
+                evidence,
+            };
+            out.extend(self.force_clear(AlertKind::SensorHealth, &channel, t, &note));
+        }
+        out
+    }
+
+    fn role(&self, channel: &str) -> Role {
+        if self.sensors.contains_key(channel) {
+            Role::Sensor
+        } else {
+            Role::Tach
+        }
+    }
+
+    fn suspended(&self, channel: &str) -> bool {
+        self.health
+            .get(channel)
+            .is_some_and(ChannelHealth::suspended)
+    }
+
+    fn tach_suspended(&self) -> bool {
+        self.health
+            .iter()
+            .any(|(ch, h)| h.suspended() && !self.sensors.contains_key(ch))
+    }
+
+    fn interrupt_speed_rules(&mut self) {
+        for kind in [AlertKind::Margin, AlertKind::Drift] {
+            if let Some(map) = self.timers.get_mut(&kind) {
+                map.values_mut().for_each(Debounce::interrupt);
+            }
+        }
+    }
+
+    fn interrupt(&mut self, kind: AlertKind, key: &str) {
+        if let Some(t) = self.timers.get_mut(&kind).and_then(|m| m.get_mut(key)) {
+            t.interrupt();
+        }
+    }
+
+    fn is_open(&self, kind: AlertKind, key: &str) -> bool {
+        self.timers
+            .get(&kind)
+            .and_then(|m| m.get(key))
+            .is_some_and(|t| t.open().is_some())
+    }
+
+    fn timer(&mut self, kind: AlertKind, key: &str) -> &mut Debounce {
+        let map = self.timers.entry(kind).or_default();
+        if !map.contains_key(key) {
+            map.insert(key.to_string(), Debounce::default());
+        }
+        map.get_mut(key).expect("inserted above")
+    }
+
+    /// Runs the debouncer of (kind, key) on one evaluation.
+    fn judge(
+        &mut self,
+        kind: AlertKind,
+        key: &str,
+        t: f64,
+        raw: Option<Severity>,
+        recovered: bool,
+        d: &dyn Describe,
+    ) -> Option<AlertChange> {
+        let delay = self.settings.delay_s;
+        let timer = self.timer(kind, key);
+        let step = timer.update(t, raw, recovered, delay)?;
+        let onset = timer.onset();
+        Some(self.record(kind, key, t, step, onset, d))
+    }
+
+    fn force_clear(
+        &mut self,
+        kind: AlertKind,
+        key: &str,
+        t: f64,
+        d: &dyn Describe,
+    ) -> Option<AlertChange> {
+        let step = self.timer(kind, key).force_clear()?;
+        Some(self.record(kind, key, t, step, None, d))
+    }
+
+    /// Turns a debouncer's step into a change and updates the open alerts.
+    fn record(
+        &mut self,
+        kind: AlertKind,
+        key: &str,
+        t: f64,
+        step: Step,
+        onset: Option<f64>,
+        d: &dyn Describe,
+    ) -> AlertChange {
+        let id = (kind, key.to_string());
+        let previous = self.open.get(&id);
+        let raised_s = previous.map_or(t, |o| o.raised_s);
+        let severity = match step {
+            Step::Raise(s) => s,
+            Step::Escalate => Severity::Alarm,
+            Step::Clear => previous.map_or(Severity::Warning, |o| o.alert.severity),
+        };
+        let mut evidence = d.evidence();
+        if let Some(obj) = evidence.as_object_mut() {
+            obj.insert("raised_time_s".into(), json!(raised_s));
+            if let Some(onset) = onset {
+                obj.insert("condition_since_s".into(), json!(onset));
+            }
+            obj.insert("delay_s".into(), json!(self.settings.delay_s));
+        }
+        let alert = Alert {
+            machine: self.machine.clone(),
+            kind,
+            key: key.to_string(),
+            severity,
+            time_s: t,
+            message: match step {
+                Step::Clear => d.cleared(),
+                _ => d.message(severity),
+            },
+            evidence,
+        };
+        match step {
+            Step::Raise(_) | Step::Escalate => {
+                self.open.insert(
+                    id,
+                    Open {
+                        alert: alert.clone(),
+                        raised_s,
+                    },
+                );
+                if matches!(step, Step::Raise(_)) {
+                    AlertChange::Raised(alert)
+                } else {
+                    AlertChange::Escalated(alert)
+                }
+            }
+            Step::Clear => {
+                self.open.remove(&id);
+                AlertChange::Cleared(alert)
+            }
+        }
+    }
+}

@@ -1,0 +1,283 @@
+//! The single storage writer: one thread owns the database connection and applies records in
+//! transactions, fed by a bounded channel so that a slow disk pushes back on the engines.
+//!
+//! A file's whole result (its ingest record marked done, its events with their vectors, order maps,
+//! resonances and measured criticals, its trend rows and health changes) is one transaction. After a
+//! crash an input is therefore either wholly stored and marked done, or not stored at all and
+//! processed again when the daemon restarts: never half, never twice.
+
+use crate::ingest::convert::EventRecord;
+use anyhow::{Context, Result};
+use std::collections::HashMap;
+use std::path::PathBuf;
+use std::sync::mpsc::{Receiver, RecvTimeoutError, SyncSender};
+use std::time::Duration;
+use tokio::sync::oneshot;
+use veer_storage::{
+    AlertRow, CriticalOrigin, GapRow, HealthRow, IngestStatus, MachineRow, NewIngest, SensorRow,
+    Severity, Store, TrendRow, Tx,
+};
+
+/// Identifies an open alert: machine, kind and what it is about.
+pub(crate) type AlertId = (String, String, String);
+
+/// A file's complete result.
+#[derive(Debug)]
+pub(crate) struct FileResult {
+    pub ingest: NewIngest,
+    pub events: Vec<EventRecord>,
+    pub trend: Vec<TrendRow>,
+    pub health: Vec<HealthRow>,
+    pub data_span: Option<(f64, f64)>,
+    pub finished_at: f64,
+}
+
+/// What the writer is asked to do.
+#[derive(Debug)]
+pub(crate) enum Record {
+    /// Machines and sensors from the configuration, and design criticals.
+    Setup {
+        machines: Vec<MachineRow>,
+        sensors: Vec<SensorRow>,
+        criticals: Vec<veer_storage::CriticalRow>,
+    },
+    /// Whether a file with this content hash was already ingested.
+    Seen {
+        hash: String,
+        reply: oneshot::Sender<bool>,
+    },
+    /// A file analysed to the end.
+    File(Box<FileResult>),
+    /// A file that could not be read.
+    FileFailed {
+        ingest: NewIngest,
+        error: String,
+        finished_at: f64,
+    },
+    /// A stream segment begins; replies with its ingest id.
+    SegmentStart {
+        ingest: NewIngest,
+        reply: oneshot::Sender<Option<i64>>,
+    },
+    /// A stream segment ends.
+    SegmentEnd {
+        id: i64,
+        span: Option<(f64, f64)>,
+        error: Option<String>,
+        finished_at: f64,
+    },
+    /// Events from a stream.
+    Events {
+        ingest_id: Option<i64>,
+        events: Vec<EventRecord>,
+    },
+    /// Trend points.
+    Trend(Vec<TrendRow>),
+    /// A health change.
+    Health(HealthRow),
+    /// Missing or damaged stream data.
+    Gap(GapRow),
+    /// An alert raised (or raised again at a new severity, which closes the old row).
+    AlertOpen { id: AlertId, row: AlertRow },
+    /// An alert cleared.
+    AlertClose { id: AlertId, time: f64 },
+    /// Replies once everything before it is committed.
+    Flush(oneshot::Sender<()>),
+}
+
+/// The sending side, cloned by every task that stores something.
+pub(crate) type WriterTx = SyncSender<Record>;
+
+/// Runs the writer until every sender is dropped. Errors of one record are logged and the writer
+/// carries on; only failing to open the database is fatal.
+pub(crate) fn run(path: PathBuf, rx: Receiver<Record>, ready: std::sync::mpsc::Sender<Result<()>>) {
+    let mut store = match Store::open(&path).with_context(|| format!("{}", path.display())) {
+        Ok(s) => {
+            let _ = ready.send(Ok(()));
+            s
+        }
+        Err(e) => {
+            let _ = ready.send(Err(e));
+            return;
+        }
+    };
+    let mut alerts: HashMap<AlertId, i64> = HashMap::new();
+    // Alerts left open by an earlier run stay open; they are matched by machine, kind and key.
+    if let Ok(open) = store.open_alerts(None) {
+        for a in open {
+            let key = alert_key_of(&a.row);
+            alerts.insert((a.row.machine.clone(), a.row.kind.clone(), key), a.id);
+        }
+    }
+    let mut trend: Vec<TrendRow> = Vec::new();
+    loop {
+        let msg = match rx.recv_timeout(Duration::from_millis(500)) {
+            Ok(m) => Some(m),
+            Err(RecvTimeoutError::Timeout) => None,
+            Err(RecvTimeoutError::Disconnected) => break,
+        };
+        match msg {
+            Some(Record::Trend(rows)) => {
+                trend.extend(rows);
+                if trend.len() >= 1000 {
+                    flush_trend(&mut store, &mut trend);
+                }
+            }
+            Some(Record::Flush(reply)) => {
+                flush_trend(&mut store, &mut trend);
+                let _ = reply.send(());
+            }
+            Some(other) => {
+                flush_trend(&mut store, &mut trend);
+                if let Err(e) = apply(&mut store, &mut alerts, other) {
+                    tracing::error!(error = %format!("{e:#}"), "storage write failed");
+                }
+            }
+            None => flush_trend(&mut store, &mut trend),
+        }
+    }
+    flush_trend(&mut store, &mut trend);
+}
+
+/// What an alert is about (a critical, a channel): veer writes it as the `key` field of the
+/// alert's evidence, so an alert left open by an earlier run can be found again.
+fn alert_key_of(row: &AlertRow) -> String {
+    row.evidence
+        .as_deref()
+        .and_then(|e| serde_json::from_str::<serde_json::Value>(e).ok())
+        .and_then(|v| v.get("key").and_then(|k| k.as_str()).map(str::to_string))
+        .unwrap_or_default()
+}
+
+fn flush_trend(store: &mut Store, rows: &mut Vec<TrendRow>) {
+    if rows.is_empty() {
+        return;
+    }
+    let batch = std::mem::take(rows);
+    if let Err(e) = store.transaction(|tx| tx.insert_trend(&batch)) {
+        tracing::error!(error = %e, rows = batch.len(), "storing trend rows failed");
+    }
+}
+
+fn store_events(tx: &Tx<'_>, ingest_id: Option<i64>, events: &[EventRecord]) -> Result<()> {
+    for rec in events {
+        let mut ev = rec.event.clone();
+        ev.ingest_id = ingest_id;
+        let eid = tx.insert_event(&ev)?;
+        for (channel, order, series, points) in &rec.traces {
+            tx.insert_vectors(eid, channel, *order, *series, points)?;
+        }
+        tx.insert_order_map(eid, &rec.order_map)?;
+        for r in &rec.resonances {
+            tx.insert_resonance(eid, r)?;
+        }
+        for c in &rec.criticals {
+            let mut c = c.clone();
+            c.origin = CriticalOrigin::Measured { event_id: eid };
+            tx.add_critical(&c)?;
+        }
+    }
+    Ok(())
+}
+
+fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, i64>, msg: Record) -> Result<()> {
+    match msg {
+        Record::Setup {
+            machines,
+            sensors,
+            criticals,
+        } => store.transaction(|tx| -> Result<()> {
+            for m in &machines {
+                tx.upsert_machine(m)?;
+            }
+            for s in &sensors {
+                tx.upsert_sensor(s)?;
+            }
+            tx.sync_design_criticals(&criticals)?;
+            Ok(())
+        })?,
+        Record::Seen { hash, reply } => {
+            let seen = store
+                .ingest_seen(&hash)?
+                .is_some_and(|r| r.row.status == IngestStatus::Done);
+            let _ = reply.send(seen);
+        }
+        Record::File(f) => store.transaction(|tx| -> Result<()> {
+            let id = tx.begin_ingest(&f.ingest)?;
+            store_events(tx, Some(id), &f.events)?;
+            tx.insert_trend(&f.trend)?;
+            for h in &f.health {
+                tx.insert_health(h)?;
+            }
+            if let Some((a, b)) = f.data_span {
+                tx.set_ingest_span(id, a, b)?;
+            }
+            tx.finish_ingest(id, IngestStatus::Done, None, f.finished_at)?;
+            Ok(())
+        })?,
+        Record::FileFailed {
+            ingest,
+            error,
+            finished_at,
+        } => store.transaction(|tx| -> Result<()> {
+            let id = tx.begin_ingest(&ingest)?;
+            tx.finish_ingest(id, IngestStatus::Failed, Some(&error), finished_at)?;
+            Ok(())
+        })?,
+        Record::SegmentStart { ingest, reply } => {
+            let id = store.begin_ingest(&ingest).ok();
+            let _ = reply.send(id);
+        }
+        Record::SegmentEnd {
+            id,
+            span,
+            error,
+            finished_at,
+        } => store.transaction(|tx| -> Result<()> {
+            if let Some((a, b)) = span {
+                tx.set_ingest_span(id, a, b)?;
+            }
+            let status = if error.is_some() {
+                IngestStatus::Failed
+            } else {
+                IngestStatus::Done
+            };
+            tx.finish_ingest(id, status, error.as_deref(), finished_at)?;
+            Ok(())
+        })?,
+        Record::Events { ingest_id, events } => {
+            store.transaction(|tx| store_events(tx, ingest_id, &events))?
+        }
+        Record::Trend(rows) => store.transaction(|tx| tx.insert_trend(&rows))?,
+        Record::Health(h) => {
+            store.insert_health(&h)?;
+        }
+        Record::Gap(g) => {
+            store.insert_gap(&g)?;
+        }
+        Record::AlertOpen { id, row } => {
+            if let Some(old) = alerts.remove(&id) {
+                store.close_alert(old, row.opened_at)?;
+            }
+            let db_id = store.open_alert(&row)?;
+            alerts.insert(id, db_id);
+        }
+        Record::AlertClose { id, time } => {
+            if let Some(old) = alerts.remove(&id) {
+                store.close_alert(old, time)?;
+            }
+        }
+        Record::Flush(reply) => {
+            let _ = reply.send(());
+        }
+    }
+    Ok(())
+}
+
+/// Severity as stored.
+pub(crate) fn severity(s: crate::config::model::Severity) -> Severity {
+    match s {
+        crate::config::model::Severity::Warning => Severity::Warning,
+        crate::config::model::Severity::Alarm => Severity::Alarm,
+    }
+}
