@@ -4,5 +4,7 @@
 mod analyze;
 mod bad_input;
 mod demo;
+mod review;
 mod simulate;
 mod support;
+mod watch;

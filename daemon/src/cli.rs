@@ -18,12 +18,24 @@ pub(crate) enum Command {
     Demo(DemoArgs),
     /// Analyse a recording (CSV or WAV): events, critical speeds, AF, damping and margins.
     Analyze(AnalyzeArgs),
+    /// Read samples on stdin (CSV rows or a serial line format) and write results as JSON lines.
+    Filter(FilterArgs),
     /// Write a synthetic recording (CSV or WAV) of a simulated machine.
     Simulate(SimulateArgs),
     /// Run the watch daemon: ingest every machine's folder or serial line, store, raise alerts.
     Watch(WatchArgs),
     /// Machines, current speed, margins to their criticals, open alerts, last data.
     Status(StatusArgs),
+    /// The stored run-ups and coast-downs, one line each.
+    Events(EventsArgs),
+    /// One event in detail: each critical with AF, damping, margins and the 1X vector at speed.
+    Show(ShowArgs),
+    /// Draws an event as an SVG plot: Bode, polar or order map.
+    Plot(PlotArgs),
+    /// Writes one self-contained HTML review of an event, optionally against a baseline event.
+    Report(ReportArgs),
+    /// A machine's criticals with their history and margins, and recommended alarm settings.
+    Margins(MarginsArgs),
 }
 
 #[derive(Debug, Args)]
@@ -189,6 +201,11 @@ pub(crate) struct SimulateArgs {
     /// file: `text` lines or binary `frames` (see docs/serial-format.md), whatever the extension.
     #[arg(long, value_parser = ["text", "frames"])]
     pub serial: Option<String>,
+    /// Replicate the machine's first vibration channel into N channels named ch01..chNN, their
+    /// probes spread 360/N degrees apart and each with its own noise, to simulate a machine with
+    /// many sensors (load and throughput tests of the daemon).
+    #[arg(long, value_parser = clap::value_parser!(u16).range(1..=255))]
+    pub channels: Option<u16>,
 }
 
 #[derive(Debug, Args)]
@@ -204,4 +221,117 @@ pub(crate) struct DemoArgs {
     /// Print one JSON document instead of the table.
     #[arg(long)]
     pub json: bool,
+}
+
+/// Arguments of `veer events`.
+#[derive(Debug, Args)]
+pub(crate) struct EventsArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// Only this machine's events.
+    #[arg(long)]
+    pub machine: Option<String>,
+    /// Only events starting at or after this time: YYYY-MM-DD or an RFC 3339 time (UTC).
+    #[arg(long)]
+    pub since: Option<String>,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Arguments of `veer show`.
+#[derive(Debug, Args)]
+pub(crate) struct ShowArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// The event id (see `veer events`).
+    pub event: i64,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Which plot `veer plot` draws.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub(crate) enum PlotKind {
+    /// 1X amplitude and phase lag against speed.
+    Bode,
+    /// The compensated 1X vector as speed changes.
+    Polar,
+    /// Order-spectrum amplitude over speed, as a colour map.
+    OrderMap,
+}
+
+/// Arguments of `veer plot`.
+#[derive(Debug, Args)]
+pub(crate) struct PlotArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// The event id (see `veer events`).
+    pub event: i64,
+    /// Which plot.
+    #[arg(long, value_enum)]
+    pub kind: PlotKind,
+    /// Only this channel (default: every channel of the event, one panel each).
+    #[arg(long)]
+    pub channel: Option<String>,
+    /// The SVG file to write.
+    #[arg(long)]
+    pub out: PathBuf,
+}
+
+/// Arguments of `veer report`.
+#[derive(Debug, Args)]
+pub(crate) struct ReportArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// The event id (see `veer events`).
+    pub event: i64,
+    /// An earlier event of the same machine to compare with.
+    #[arg(long)]
+    pub baseline: Option<i64>,
+    /// The HTML file to write.
+    #[arg(long)]
+    pub out: PathBuf,
+}
+
+/// Arguments of `veer margins`.
+#[derive(Debug, Args)]
+pub(crate) struct MarginsArgs {
+    #[command(flatten)]
+    pub source: DbArgs,
+    /// The machine id.
+    pub machine: String,
+    /// Casing-vibration zone table for velocity channels (ISO 10816-3 / 20816-3 Annex A): machine
+    /// group and support, g1-rigid, g1-flexible, g2-rigid or g2-flexible.
+    #[arg(long, default_value = "g2-rigid", value_parser = ["g1-rigid", "g1-flexible", "g2-rigid", "g2-flexible"])]
+    pub zones: String,
+    /// Print one JSON document instead of the table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub(crate) struct FilterArgs {
+    /// What stdin carries: csv (a header row, then one row per sample instant), or veer's serial
+    /// line formats text or frames (see docs/serial-format.md).
+    #[arg(long, default_value = "csv", value_parser = ["csv", "text", "frames"])]
+    pub format: String,
+    /// Tach column: header name or 0-based index (serial formats: a name from --channels).
+    #[arg(long)]
+    pub tach: String,
+    /// Vibration columns: names or 0-based indices, comma separated.
+    #[arg(long, value_delimiter = ',', required = true)]
+    pub vib: Vec<String>,
+    /// Sample rate, Hz (needed for CSV without a time column, and for the serial formats).
+    #[arg(long)]
+    pub rate: Option<f64>,
+    /// Serial formats: the channel names in the order the logger sends them.
+    #[arg(long, value_delimiter = ',')]
+    pub channels: Vec<String>,
+    /// Leave out the per-revolution lines (state changes and events only).
+    #[arg(long)]
+    pub no_revolutions: bool,
+    #[command(flatten)]
+    pub track: TrackArgs,
 }

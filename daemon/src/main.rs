@@ -13,6 +13,7 @@ mod ingest;
 mod pipeline;
 mod plant;
 mod report;
+mod review;
 mod serial;
 mod setup;
 mod timefmt;

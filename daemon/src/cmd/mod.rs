@@ -2,7 +2,9 @@
 
 mod analyze;
 mod demo;
+mod filter;
 mod plant_demo;
+mod review;
 mod simulate;
 mod status;
 mod watch;
@@ -14,10 +16,16 @@ use anyhow::Result;
 pub(crate) fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Analyze(a) => analyze::run(a),
+        Command::Filter(a) => filter::run(a),
         Command::Simulate(a) => simulate::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Watch(a) => watch::run(a),
         Command::Status(a) => status::run(a),
+        Command::Events(a) => review::events(a),
+        Command::Show(a) => review::show(a),
+        Command::Plot(a) => review::plot(a),
+        Command::Report(a) => review::report(a),
+        Command::Margins(a) => review::margins(a),
     }
 }
 

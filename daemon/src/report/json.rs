@@ -66,7 +66,8 @@ fn channel(c: &EventChannel) -> Value {
     })
 }
 
-fn event(e: &Event) -> Value {
+/// One event as in the `events` array of the document (also written by `veer filter`).
+pub(crate) fn event(e: &Event) -> Value {
     json!({
         "kind": e.kind.name(),
         "start_s": r(e.start_s, 3),

@@ -41,6 +41,10 @@ pub(crate) struct Worker {
     writer: WriterTx,
     alerts_out: mpsc::Sender<(String, AlertChange)>,
     alerts: AlertEngine,
+    /// The criticals the rules judge against: design values, then as measured.
+    known: Vec<KnownCritical>,
+    /// Alerts left open by the previous run (kind, key, severity), not notified again when found.
+    carried_over: Vec<(String, String, veer_storage::Severity)>,
     stream: Option<StreamRun>,
 }
 
@@ -142,25 +146,23 @@ impl Worker {
             .iter()
             .map(|s| (s.channel.clone(), s.warning_1x, s.alarm_1x))
             .collect();
-        let alerts = AlertEngine::new(
-            &machine.id,
-            &machine.alerts,
-            range,
-            &sensors,
-            known_criticals(&machine),
-        );
+        let known = known_criticals(&machine);
+        let alerts = AlertEngine::new(&machine.id, &machine.alerts, range, &sensors, known.clone());
         Self {
             machine,
             daemon,
             writer,
             alerts_out,
             alerts,
+            known,
+            carried_over: Vec::new(),
             stream: None,
         }
     }
 
     /// Runs jobs until the channel closes.
     pub(crate) fn run(mut self, mut jobs: mpsc::Receiver<Job>) {
+        self.load_carried_over();
         while let Some(job) = jobs.blocking_recv() {
             match job {
                 Job::File(path) => {
@@ -178,8 +180,36 @@ impl Worker {
         }
     }
 
+    /// Asks the writer which of the machine's alerts a previous run left open, so that the same
+    /// condition found again after a restart does not notify the outputs a second time.
+    fn load_carried_over(&mut self) {
+        let (tx, rx) = oneshot::channel();
+        if self
+            .writer
+            .send(Record::OpenAlerts {
+                machine: self.machine.id.clone(),
+                reply: tx,
+            })
+            .is_ok()
+        {
+            self.carried_over = rx.blocking_recv().unwrap_or_default();
+        }
+    }
+
     fn alert_changes(&mut self, changes: Vec<AlertChange>) {
         for c in changes {
+            if let AlertChange::Raised(a) = &c {
+                let was_open = self.carried_over.iter().position(|(kind, key, sev)| {
+                    kind == a.kind.name()
+                        && *key == a.key
+                        && *sev == super::writer::severity(a.severity)
+                });
+                if let Some(i) = was_open {
+                    // Already open and already notified by the run before the restart.
+                    self.carried_over.swap_remove(i);
+                    continue;
+                }
+            }
             let (id, record) = super::alert_record(&c);
             let _ = self.writer.send(match record {
                 Some(row) => Record::AlertOpen { id, row },
@@ -232,6 +262,7 @@ impl Worker {
                         .collect();
                     let ch = self.alerts.on_event_criticals(rec.event.end_time, &found);
                     self.alert_changes(ch);
+                    self.follow_measured(&found);
                     into.events.push(*rec);
                 }
                 Observation::Trend(rows) => into.trend.extend(rows),
@@ -259,6 +290,39 @@ impl Worker {
                 }
             }
         }
+    }
+
+    /// After an event, the margin and drift rules judge the running speed against the criticals as
+    /// measured: each known critical within ±25 % of a found one takes the found speed (averaged over
+    /// the channels that saw it) and AF, keeping its key so its alerts carry on, with the previous
+    /// speed kept as the baseline for the shift rule.
+    fn follow_measured(&mut self, found: &[(String, f64, Option<f64>)]) {
+        if found.is_empty() {
+            return;
+        }
+        let mut list = self.known.clone();
+        for k in &mut list {
+            let near: Vec<&(String, f64, Option<f64>)> = found
+                .iter()
+                .filter(|(_, rpm, _)| (rpm / k.rpm - 1.0).abs() <= 0.25)
+                .collect();
+            if near.is_empty() {
+                continue;
+            }
+            let n = near.len() as f64;
+            let rpm = near.iter().map(|f| f.1).sum::<f64>() / n;
+            let afs: Vec<f64> = near.iter().filter_map(|f| f.2).collect();
+            k.baseline_rpm = Some(k.baseline_rpm.unwrap_or(k.rpm));
+            k.rpm = rpm;
+            k.af = if afs.is_empty() {
+                k.af
+            } else {
+                Some(afs.iter().sum::<f64>() / afs.len() as f64)
+            };
+            k.origin = "measured".to_string();
+        }
+        self.known = list.clone();
+        self.alerts.set_criticals(list);
     }
 
     /// Resolves the tach and sensor channels among a source's channel names. A file whose channels

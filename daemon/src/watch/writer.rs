@@ -83,6 +83,19 @@ pub(crate) enum Record {
     AlertClose { id: AlertId, time: f64 },
     /// Replies once everything before it is committed.
     Flush(oneshot::Sender<()>),
+    /// The alerts of a machine still open in the database: kind, key, severity.
+    OpenAlerts {
+        machine: String,
+        reply: oneshot::Sender<Vec<(String, String, Severity)>>,
+    },
+}
+
+/// An alert row still open in the database.
+#[derive(Clone, Copy, Debug)]
+struct OpenAlert {
+    id: i64,
+    opened_at: f64,
+    severity: Severity,
 }
 
 /// The sending side, cloned by every task that stores something.
@@ -101,12 +114,19 @@ pub(crate) fn run(path: PathBuf, rx: Receiver<Record>, ready: std::sync::mpsc::S
             return;
         }
     };
-    let mut alerts: HashMap<AlertId, i64> = HashMap::new();
+    let mut alerts: HashMap<AlertId, OpenAlert> = HashMap::new();
     // Alerts left open by an earlier run stay open; they are matched by machine, kind and key.
     if let Ok(open) = store.open_alerts(None) {
         for a in open {
             let key = alert_key_of(&a.row);
-            alerts.insert((a.row.machine.clone(), a.row.kind.clone(), key), a.id);
+            alerts.insert(
+                (a.row.machine.clone(), a.row.kind.clone(), key),
+                OpenAlert {
+                    id: a.id,
+                    opened_at: a.row.opened_at,
+                    severity: a.row.severity,
+                },
+            );
         }
     }
     let mut trend: Vec<TrendRow> = Vec::new();
@@ -180,7 +200,7 @@ fn store_events(tx: &Tx<'_>, ingest_id: Option<i64>, events: &[EventRecord]) -> 
     Ok(())
 }
 
-fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, i64>, msg: Record) -> Result<()> {
+fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Record) -> Result<()> {
     match msg {
         Record::Setup {
             machines,
@@ -256,16 +276,37 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, i64>, msg: Record) -> 
             store.insert_gap(&g)?;
         }
         Record::AlertOpen { id, row } => {
-            if let Some(old) = alerts.remove(&id) {
-                store.close_alert(old, row.opened_at)?;
+            if let Some(old) = alerts.get(&id).copied() {
+                if old.severity == row.severity {
+                    // Raised again with the same severity (after a restart): the open row stands.
+                    return Ok(());
+                }
+                // Data may arrive out of order: never close a row before it opened.
+                store.close_alert(old.id, row.opened_at.max(old.opened_at))?;
+                alerts.remove(&id);
             }
             let db_id = store.open_alert(&row)?;
-            alerts.insert(id, db_id);
+            alerts.insert(
+                id,
+                OpenAlert {
+                    id: db_id,
+                    opened_at: row.opened_at,
+                    severity: row.severity,
+                },
+            );
         }
         Record::AlertClose { id, time } => {
             if let Some(old) = alerts.remove(&id) {
-                store.close_alert(old, time)?;
+                store.close_alert(old.id, time.max(old.opened_at))?;
             }
+        }
+        Record::OpenAlerts { machine, reply } => {
+            let open = alerts
+                .iter()
+                .filter(|((m, _, _), _)| *m == machine)
+                .map(|((_, kind, key), a)| (kind.clone(), key.clone(), a.severity))
+                .collect();
+            let _ = reply.send(open);
         }
         Record::Flush(reply) => {
             let _ = reply.send(());

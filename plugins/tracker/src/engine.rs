@@ -135,7 +135,8 @@ pub enum Update {
     State(StateChange),
     /// A run-up or coast-down finished.
     Event(Box<Event>),
-    /// The tach was lost at this time, s.
+    /// The tach was lost: no plausible pulse since the last revolution; the time is when the silence
+    /// passed the longest plausible revolution, s.
     TachLost(f64),
 }
 
@@ -407,8 +408,11 @@ impl Engine {
     }
 
     fn on_tach_lost(&mut self, now: f64) {
-        self.updates.push(Update::TachLost(now));
         let last = self.recent.back().map_or(now, |p| p.time_s);
+        // Dated when the silence became longer than any plausible revolution, not when the block
+        // that revealed it ended: a long block would otherwise date the loss late by its length.
+        let lost_at = (last + self.angle.max_silence()).min(now);
+        self.updates.push(Update::TachLost(lost_at));
         self.close_sweep(last);
         if let Some(c) = self.states.stopped(last) {
             self.updates.push(Update::State(c));

@@ -18,7 +18,7 @@
 //!
 //! The per-sample loop computes the phasor by a chirp recurrence (the angle is quadratic in time, so
 //! the per-sample rotation itself rotates by a constant), restarted from an exact `sin_cos` every
-//! [`RESTART`] samples so rounding cannot drift; the phasors are shared by all channels.
+//! `RESTART` (256) samples so rounding cannot drift; the phasors are shared by all channels.
 
 use crate::types::{Complex64, Revolution};
 use std::f64::consts::TAU;

@@ -23,6 +23,8 @@ mod quiet;
 mod runout;
 #[path = "engine_checks/sweep.rs"]
 mod sweep;
+#[path = "engine_checks/sweep_bias.rs"]
+mod sweep_bias;
 #[path = "engine_checks/tach_wheels.rs"]
 mod tach_wheels;
 #[path = "engine_checks/two_modes.rs"]

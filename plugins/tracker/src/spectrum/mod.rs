@@ -16,9 +16,18 @@
 //!    at any speed. It is bypassed once the cutoff would exceed 0.45·fs: the angle sampling rate is
 //!    then above the raw one and the acquisition's own anti-alias filter already band-limits the
 //!    signal below the angle Nyquist.
+//!
+//!    At low speed, where the cutoff is a small fraction of the raw rate, the samples are first
+//!    decimated by an integer factor with a third-order CIC filter and a droop compensator
+//!    ([`decimate`]), so that the Butterworth runs at between 12 and about 19 times its cutoff
+//!    instead of up to several hundred times. The factor is chosen per row of the order map, when
+//!    the filter is primed (for the engine, at the settling revolution after a skip), for the highest
+//!    speed expected in the row; should the speed outgrow it, the stream restarts with a smaller
+//!    factor one revolution back, so the block goes on. The delay of the CIC is accounted for in
+//!    the time mapping, and at high speed (factor 1) the chain is the Butterworth alone.
 //! 2. **Angle resampling** ([`resample`]): `samples_per_rev` points per revolution at the times
 //!    `rev.time_at(j / samples_per_rev)`, by 4-point (cubic) Lagrange interpolation between filtered
-//!    samples.
+//!    (and possibly decimated) samples.
 //! 3. **Block spectrum** ([`tracker`]): `revs_per_block` consecutive revolutions, windowed
 //!    ([`window`]), one complex FFT planned once, scaled to peak amplitudes with the window's
 //!    coherent gain.
@@ -28,12 +37,15 @@
 //! order map are not used for the nX vectors**: those come from a separate per-revolution DFT
 //! ([`crate::vectors`]).
 //!
-//! Memory is bounded: a channel keeps only the samples from the start of the earliest revolution
-//! not yet resampled, capped at about `2 × max_rev_s × fs` plus the last block of samples pushed
-//! (the buffer's allocation may round that up).
+//! Memory is bounded: a channel keeps only the raw samples from the start of the earliest revolution
+//! not yet resampled (while decimating, from the start of the last revolution used), capped at about
+//! `2 × max_rev_s × fs` plus the last block of samples pushed (the buffer's allocation may round
+//! that up), and the few filtered samples the next revolution's interpolation reaches back to.
 
+pub mod decimate;
 pub mod filter;
 pub mod resample;
+mod stream;
 pub mod tracker;
 pub mod window;
 

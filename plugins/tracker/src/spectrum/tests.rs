@@ -471,6 +471,285 @@ fn config_errors_name_the_field() {
     );
 }
 
+/// Feeds revolutions the way the engine does when it samples the order map by rows: each row is
+/// one settling revolution and a block of revolutions, each pushed with only its own samples (and
+/// three before, four after) through `push_samples_at`; between rows `gap` revolutions are skipped.
+/// Returns the spectra with the decimation factor each was made with.
+fn run_rows(
+    cfg: &OrderMapConfig,
+    fs: f64,
+    x: &[f32],
+    revs: &[Revolution],
+    gap: usize,
+) -> (Vec<(OrderSpectrum, usize)>, OrderTracker) {
+    let mut tr = OrderTracker::new(cfg, fs, 0.0, 1.0).expect("valid tracker");
+    let mut out = Vec::new();
+    let row = cfg.revs_per_block + 1;
+    for (k, rev) in revs.iter().enumerate() {
+        if k % (row + gap) >= row {
+            tr.skip_revolution(rev);
+            continue;
+        }
+        let from = ((rev.t_start * fs).floor() as usize).saturating_sub(3);
+        let to = ((rev.t_end * fs).ceil() as usize + 4).min(x.len());
+        tr.push_samples_at(from as u64, &x[from..to]);
+        if let Some(s) = tr.push_revolution(rev) {
+            out.push((s, tr.decimation()));
+        }
+    }
+    (out, tr)
+}
+
+#[test]
+fn low_speed_pure_orders_read_their_amplitude() {
+    // 300 r/min at 51.2 kHz: the cutoff (25.6X = 128 Hz) is 1/400 of the sample rate, so the
+    // samples are decimated ahead of the Butterworth (by 30 here: 51 200 / (12 × 128 × 1.05 × the
+    // row's expected speed rise, none at constant speed), floored). Pure orders must still read their
+    // amplitude within 0.5 % (coherent gain, Harris 1978), both with every revolution pushed and
+    // with rows as the engine takes them.
+    let fs = 51_200.0;
+    let shaft = Shaft {
+        f0: 5.0,
+        accel: 0.0,
+        t_p0: 0.13,
+    };
+    let t_max = 0.2 + 80.0 / shaft.f0;
+    let n = (t_max * fs) as usize;
+    let revs = revs_until(&shaft, t_max - 0.01);
+    let cfg = OrderMapConfig::default();
+    let a = 2.5;
+    let want_d = (fs / (12.0 * 25.6 * shaft.f0 * 1.05)).floor() as usize;
+    for order in [0.5, 1.0, 2.0, 7.25, 12.0] {
+        let x = sampled(n, fs, 0.0, |t| {
+            a * (TAU * order * shaft.turns(t) + 0.3).cos() + 0.8
+        });
+        let (every, tr) = run(&cfg, fs, 0.0, &x, &revs, 4096, true);
+        assert_eq!(tr.decimation(), want_d);
+        let (rows, _) = run_rows(&cfg, fs, &x, &revs, 16);
+        assert_eq!(every.len(), revs.len() / 16);
+        // Rows of 17 revolutions every 33: all complete ones are there.
+        assert_eq!(rows.len(), (revs.len() + 16) / 33, "{order}X rows");
+        let bin = (order * 16.0) as usize;
+        let mut worst = 0.0f64;
+        for s in every.iter().chain(rows.iter().map(|(s, _)| s)) {
+            let got = f64::from(s.amplitudes[bin]);
+            worst = worst.max((got - a).abs() / a);
+            assert!((got - a).abs() < 0.005 * a, "{order}X reads {got}");
+            for nb in [bin - 1, bin + 1] {
+                let v = f64::from(s.amplitudes[nb]);
+                assert!((v - 0.5 * a).abs() < 0.005 * a, "Hann neighbour {v}");
+            }
+            // Bin 0 holds the offset and Hann spreads it onto bin 1.
+            for (k, &v) in s.amplitudes.iter().enumerate().skip(2) {
+                if k.abs_diff(bin) > 1 {
+                    assert!(f64::from(v) < 1e-4 * a, "{order}X bin {k} = {v}");
+                }
+            }
+            assert!((f64::from(s.amplitudes[0]) - 0.8).abs() < 1e-4);
+        }
+        for (_, d) in &rows {
+            assert_eq!(*d, want_d);
+        }
+        println!("{order}X at 300 r/min, D = {want_d}: worst amplitude error {worst:.2e}");
+    }
+}
+
+#[test]
+fn low_speed_alias_of_decimation_is_rejected() {
+    // After decimation by D, a tone at j·fs/D ± f folds onto f (sampling theorem, common practice).
+    // At 300 r/min and 51.2 kHz, tones placed to fold exactly onto 3X, 14X and 20X, near the first
+    // and a higher folding band, must be at least 40 dB down at their bins: only the CIC stands
+    // between them and the map. Where the closed form (Hogenauer 1981) puts them above the f32
+    // noise floor they must read its level within 1 dB: 72 dB down for the 20X fold, the least
+    // rejected. A first-order CIC (a plain boxcar) would leave that one only 24 dB down, and keeping
+    // every D-th sample would pass it whole (checked below on the samples themselves).
+    let fs = 51_200.0;
+    let shaft = Shaft {
+        f0: 5.0,
+        accel: 0.0,
+        t_p0: 0.11,
+    };
+    let t_max = 0.2 + 36.0 / shaft.f0;
+    let n = (t_max * fs) as usize;
+    let revs = revs_until(&shaft, t_max - 0.01);
+    let cfg = OrderMapConfig::default();
+    let probe = sampled(n, fs, 0.0, |t| (TAU * shaft.turns(t)).cos());
+    let (_, tr) = run(&cfg, fs, 0.0, &probe, &revs, 4096, true);
+    let d = tr.decimation();
+    assert!(d >= 16, "decimation {d}");
+    let fd = fs / d as f64;
+    for (j, sign, order) in [
+        (1.0, -1.0, 3.0),
+        (1.0, 1.0, 14.0),
+        (1.0, -1.0, 20.0),
+        (5.0, 1.0, 3.0),
+    ] {
+        let f_order = order * shaft.f0;
+        let tone = j * fd + sign * f_order;
+        // Kept every D-th sample from the prime point (sample 0), the tone is the order exactly.
+        for m in [1usize, 7, 1234] {
+            let t = (m * d) as f64 / fs;
+            let folded = (TAU * tone * t).cos();
+            let alias = (TAU * sign * f_order * t).cos();
+            assert!((folded - alias).abs() < 1e-6, "fold of {tone} Hz");
+        }
+        let x = sampled(n, fs, 0.0, |t| (TAU * tone * t).cos());
+        let (spectra, _) = run(&cfg, fs, 0.0, &x, &revs, 4096, true);
+        assert!(!spectra.is_empty());
+        let bin = (order * 16.0) as usize;
+        let mut lp = filter::AntiAliasFilter::new(fd);
+        lp.set_cutoff(25.6 * shaft.f0);
+        let gain = decimate::cic_magnitude(tone, fs, d)
+            * decimate::compensator_gain(f_order, fd, d)
+            * lp.magnitude(f_order);
+        let want_db = -20.0 * gain.log10();
+        for s in &spectra {
+            let db = -20.0 * f64::from(s.amplitudes[bin]).log10();
+            println!(
+                "tone {tone:.1} Hz (j = {j}): {db:.1} dB down at {order}X (closed form {want_db:.1}), D = {d}"
+            );
+            assert!(
+                db >= 40.0,
+                "{tone} Hz folds onto {order}X only {db:.1} dB down"
+            );
+            if want_db < 100.0 {
+                assert!((db - want_db).abs() < 1.0, "{db:.1} dB vs {want_db:.1}");
+            }
+        }
+    }
+}
+
+#[test]
+fn decimation_steps_down_within_a_fast_run_up() {
+    // A run-up from 120 to 1200 r/min, long enough that the factor chosen at the first revolution
+    // (for the speed expected 17 revolutions on) is outgrown within the record: the stream restarts with smaller factors at
+    // the previous revolution's start, and the blocks go on. 1X must stay within 0.1 % through the
+    // changes, as in the run-up test, and no block may be lost.
+    let fs = 25_600.0;
+    let shaft = Shaft {
+        f0: 2.0,
+        accel: 1.0,
+        t_p0: 0.05,
+    };
+    let t_max = 18.0;
+    let n = (t_max * fs) as usize + 10;
+    let revs = revs_until(&shaft, t_max - 0.01);
+    let cfg = OrderMapConfig::default();
+    let a = 2.0;
+    let x = sampled(n, fs, 0.0, |t| a * (TAU * shaft.turns(t)).cos());
+    let mut tr = OrderTracker::new(&cfg, fs, 0.0, 1.0).expect("valid tracker");
+    tr.push_samples(&x);
+    let mut factors = Vec::new();
+    let mut spectra = Vec::new();
+    for rev in &revs {
+        spectra.extend(tr.push_revolution(rev));
+        if factors.last() != Some(&tr.decimation()) {
+            factors.push(tr.decimation());
+        }
+    }
+    println!("factors {factors:?}, {} spectra", spectra.len());
+    assert!(factors.len() >= 3, "factors {factors:?}");
+    assert!(factors.windows(2).all(|w| w[1] < w[0]));
+    assert_eq!(spectra.len(), revs.len() / 16);
+    for s in &spectra {
+        let one_x = f64::from(s.amplitudes[16]);
+        println!("{:.0} r/min: 1X {one_x:.5} (of {a})", s.speed_rpm);
+        assert!(
+            (one_x - a).abs() < 0.001 * a,
+            "1X reads {one_x} at {:.0} r/min",
+            s.speed_rpm
+        );
+    }
+}
+
+#[test]
+fn decimated_spectra_do_not_depend_on_push_sizes() {
+    // The same streaming independence with decimation, through changes of the factor: a run-up
+    // from 180 to 900 r/min at 12.8 kHz, every revolution pushed.
+    let fs = 12_800.0;
+    let shaft = Shaft {
+        f0: 3.0,
+        accel: 2.0,
+        t_p0: 0.07,
+    };
+    let t_max = 6.0;
+    let n = (t_max * fs) as usize + 10;
+    let nz = noise(11, n);
+    let x: Vec<f32> = (0..n)
+        .map(|i| {
+            let t = i as f64 / fs;
+            ((TAU * shaft.turns(t)).cos() + 0.4 * (TAU * 3.5 * shaft.turns(t)).sin() + 0.1 * nz[i])
+                as f32
+        })
+        .collect();
+    let cfg = OrderMapConfig {
+        revs_per_block: 8,
+        ..OrderMapConfig::default()
+    };
+    let revs = revs_until(&shaft, t_max);
+    let (reference, tr_ref) = run(&cfg, fs, 0.0, &x, &revs, 4096, true);
+    assert!(reference.len() >= 4);
+    assert!(tr_ref.decimation() > 1);
+    for chunk in [1, 7, 1000] {
+        let (s, tr) = run(&cfg, fs, 0.0, &x, &revs, chunk, true);
+        assert_eq!(s, reference, "chunk {chunk}");
+        assert_eq!(tr.last_block(), tr_ref.last_block());
+        assert_eq!(tr.decimation(), tr_ref.decimation());
+    }
+}
+
+#[test]
+fn busy_only_while_a_row_is_under_way() {
+    // A caller samples rows: it pushes revolutions while the tracker is busy or it wants a row, and
+    // skips them otherwise. Skipped revolutions must not make the tracker busy (which would have
+    // the caller push and filter every other revolution between rows); a pushed settling
+    // revolution and a block in progress must.
+    let fs = 10_000.0;
+    let shaft = Shaft {
+        f0: 20.0,
+        accel: 0.0,
+        t_p0: 0.01,
+    };
+    let cfg = OrderMapConfig {
+        revs_per_block: 4,
+        ..OrderMapConfig::default()
+    };
+    let x = sampled(30_000, fs, 0.0, |t| (TAU * shaft.turns(t)).cos());
+    let mut tr = OrderTracker::new(&cfg, fs, 0.0, 0.5).expect("valid");
+    let push = |tr: &mut OrderTracker, k: u64| {
+        let rev = shaft.revolution(k);
+        let from = ((rev.t_start * fs).floor() as usize).saturating_sub(3);
+        let to = (rev.t_end * fs).ceil() as usize + 4;
+        tr.push_samples_at(from as u64, &x[from..to]);
+        tr.push_revolution(&rev)
+    };
+    assert!(!tr.busy());
+    for k in 0..3 {
+        assert!(push(&mut tr, k).is_none());
+        assert!(tr.busy(), "block in progress at {k}");
+    }
+    assert!(push(&mut tr, 3).is_some());
+    assert!(!tr.busy());
+    for k in 4..9 {
+        tr.skip_revolution(&shaft.revolution(k));
+        assert!(!tr.busy(), "skipped {k}");
+    }
+    // The next row: one settling revolution, then a block of four.
+    assert!(push(&mut tr, 9).is_none());
+    assert!(tr.busy(), "settled");
+    for k in 10..13 {
+        assert!(push(&mut tr, k).is_none());
+        assert!(tr.busy());
+    }
+    let s = push(&mut tr, 13).expect("block 10..=13");
+    assert!((s.time_s - 0.5 * (shaft.pulse(10) + shaft.pulse(14))).abs() < 1e-12);
+    assert!(!tr.busy());
+    tr.skip_revolution(&shaft.revolution(14));
+    assert!(push(&mut tr, 15).is_none());
+    tr.reset_block();
+    assert!(!tr.busy());
+}
+
 #[test]
 #[ignore = "throughput figure; run with --release -- --ignored --nocapture"]
 fn throughput() {
@@ -496,4 +775,32 @@ fn throughput() {
         n as f64 / dt / 1e6
     );
     assert!(!spectra.is_empty());
+}
+
+#[test]
+#[ignore = "throughput figures by speed; run with --release -- --ignored --nocapture"]
+fn throughput_by_speed() {
+    // Constant speeds through the range where the raw rate is far above the cutoff (decimated)
+    // and where it is not, at 25.6 kHz, every revolution pushed.
+    let fs = 25_600.0;
+    let t_max = 40.0;
+    let n = (t_max * fs) as usize;
+    let cfg = OrderMapConfig::default();
+    for rpm in [400.0, 1000.0, 2000.0, 3000.0, 6000.0] {
+        let shaft = Shaft {
+            f0: rpm / 60.0,
+            accel: 0.0,
+            t_p0: 0.01,
+        };
+        let x = sampled(n, fs, 0.0, |t| (TAU * shaft.turns(t)).cos());
+        let revs = revs_until(&shaft, t_max - 0.01);
+        let mut best = f64::INFINITY;
+        for _ in 0..5 {
+            let start = std::time::Instant::now();
+            let (spectra, _) = run(&cfg, fs, 0.0, &x, &revs, 1024, true);
+            best = best.min(start.elapsed().as_secs_f64());
+            assert!(!spectra.is_empty());
+        }
+        println!("{rpm} r/min: {:.1} M samples/s", n as f64 / best / 1e6);
+    }
 }

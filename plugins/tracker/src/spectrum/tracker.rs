@@ -5,14 +5,20 @@ use std::sync::Arc;
 
 use rustfft::{Fft, FftPlanner};
 
-use super::filter::AntiAliasFilter;
+use super::decimate::{self, MIN_RATE_OF_CUTOFF};
 use super::resample::cubic;
+use super::stream::FilteredStream;
 use super::{OrderMapConfig, SpectrumError};
 use crate::types::{Complex64, Revolution};
 
 /// Fraction of the angle-domain Nyquist at which the anti-alias cutoff sits: 0.8, which leaves the
 /// top fifth of the band for the roll-off and matches the 0.4 × samples_per_rev limit on max_order.
 const CUTOFF_OF_NYQUIST: f64 = 0.8;
+
+/// Margin on the highest speed expected within a row when its decimation factor is chosen: the
+/// speed predicted from the revolution's acceleration is raised by this factor to cover the angle
+/// model's scatter, so that the factor rarely has to be lowered within a row.
+const SPEED_MARGIN: f64 = 1.05;
 
 /// Largest sample buffer accepted, samples (about 1 GiB of `f32`): guards against absurd
 /// `max_rev_s × sample_rate` products.
@@ -47,11 +53,15 @@ pub struct OrderTracker {
     t0: f64,
     /// Samples kept before the last push, on top of that push itself.
     base_cap: usize,
-    /// Samples from `first_index` on; those before `filtered_to` are filtered, the rest raw.
+    /// Raw samples from `first_index` on.
     samples: VecDeque<f32>,
     first_index: u64,
-    filtered_to: u64,
-    filter: AntiAliasFilter,
+    /// Decimation, low-pass and the filtered outputs the resampler reads.
+    stream: FilteredStream,
+    /// Raw index a little before the start of the last revolution used (filtered or resampled):
+    /// where a stream re-primed with a smaller decimation factor can start so that the revolution
+    /// before the current one lets it settle.
+    last_rev_start: Option<u64>,
     /// Off only in tests, to show what the filter prevents.
     pub(super) anti_alias: bool,
     /// Angle-domain block being filled, and the last complete one.
@@ -61,6 +71,8 @@ pub struct OrderTracker {
     revs_in_block: usize,
     /// Revolutions still to be filtered, but not used, while the filter settles after a skip.
     settling: usize,
+    /// The last revolution pushed only let the filter settle: the next one starts a block.
+    settled: bool,
     block_t_start: f64,
     prev: Option<(u64, f64)>,
     window: Vec<f64>,
@@ -79,7 +91,8 @@ impl std::fmt::Debug for OrderTracker {
             .field("sample_rate", &self.sample_rate)
             .field("buffered", &self.samples.len())
             .field("revs_in_block", &self.revs_in_block)
-            .field("cutoff_hz", &self.filter.cutoff_hz())
+            .field("cutoff_hz", &self.stream.cutoff_hz())
+            .field("decimation", &self.stream.factor())
             .finish_non_exhaustive()
     }
 }
@@ -140,14 +153,15 @@ impl OrderTracker {
             base_cap: cap as usize + 8,
             samples: VecDeque::new(),
             first_index: 0,
-            filtered_to: 0,
-            filter: AntiAliasFilter::new(sample_rate),
+            stream: FilteredStream::new(sample_rate),
+            last_rev_start: None,
             anti_alias: true,
             filling: vec![0.0; n],
             done: vec![0.0; n],
             have_done: false,
             revs_in_block: 0,
             settling: 0,
+            settled: false,
             block_t_start: 0.0,
             prev: None,
             window,
@@ -180,8 +194,7 @@ impl OrderTracker {
         if start_index > end {
             self.samples.clear();
             self.first_index = start_index;
-            self.filtered_to = start_index;
-            self.filter.invalidate();
+            self.stream.invalidate();
             self.reset_block();
         }
         let end = self.first_index + self.samples.len() as u64;
@@ -200,16 +213,17 @@ impl OrderTracker {
     /// and returns `None`. The first revolution after the start, or after samples were lost, may
     /// carry the filter's settling, a few hundredths of a revolution long.
     pub fn push_revolution(&mut self, rev: &Revolution) -> Option<OrderSpectrum> {
+        self.settled = false;
         if !self.plausible(rev) {
             self.reset_block();
             return None;
         }
-        if let Some((index, t_end)) = self.prev {
-            let joined = rev.index == index.wrapping_add(1)
-                && (rev.t_start - t_end).abs() <= 0.5 / self.sample_rate;
-            if !joined {
-                self.revs_in_block = 0;
-            }
+        let joined = self.prev.is_some_and(|(index, t_end)| {
+            rev.index == index.wrapping_add(1)
+                && (rev.t_start - t_end).abs() <= 0.5 / self.sample_rate
+        });
+        if !joined {
+            self.revs_in_block = 0;
         }
         let spr = self.cfg.samples_per_rev;
         let pos_first = (rev.t_start - self.t0) * self.sample_rate;
@@ -219,7 +233,9 @@ impl OrderTracker {
         let hi = pos_last.floor() + 2.0;
         let first = self.first_index as f64;
         let end = first + self.samples.len() as f64;
-        if lo < first || hi >= end {
+        // A running stream has consumed the raw samples before its next output's inputs; the check
+        // that it still covers this revolution comes after it has been brought up to date.
+        if hi >= end || (lo < first && !self.stream.is_primed()) {
             self.reset_block();
             return None;
         }
@@ -228,28 +244,30 @@ impl OrderTracker {
         // Tracking filter: cutoff from this revolution's mean speed, applied to the samples it needs
         // that are not filtered yet.
         let cutoff = CUTOFF_OF_NYQUIST * 0.5 * spr as f64 / rev.period();
-        if self.anti_alias {
-            self.filter.set_cutoff(cutoff);
-        } else {
-            self.filter.set_cutoff(f64::INFINITY);
-        }
+        self.tune_stream(rev, cutoff, joined);
         // Filter through the end of the revolution (and the two samples after it that the contract
-        // guarantees), so that the samples kept for the next revolution are filtered ones.
+        // guarantees), so that the outputs kept for the next revolution are there.
         let pos_end = (rev.t_end - self.t0) * self.sample_rate;
         let last_avail = self.first_index + self.samples.len() as u64 - 1;
-        let filter_to = ((pos_end.floor() + 2.0).min(last_avail as f64) as u64).max(hi);
-        if self.filtered_to <= filter_to {
-            let from = (self.filtered_to - self.first_index) as usize;
-            let to = (filter_to + 1 - self.first_index) as usize;
-            self.filter_range(from, to);
-            self.filtered_to = filter_to + 1;
+        let limit = ((pos_end.floor() + 2.0).min(last_avail as f64) as u64).max(hi);
+        let raw = self.samples.make_contiguous();
+        self.stream.produce(raw, self.first_index, limit);
+        self.last_rev_start = Some((lo.max(0.0) as u64).saturating_sub(2));
+        // The interpolation reads outputs floor(q) − 1 … floor(q) + 2 at each angle point.
+        let q_first = self.stream.index_of(pos_first).floor() - 1.0;
+        let q_last = self.stream.index_of(pos_last).floor() + 2.0;
+        let held = self.stream.outputs().len() as f64;
+        if !(self.stream.is_primed() && q_first >= 0.0 && q_last < held) {
+            self.reset_block();
+            return None;
         }
 
         if self.settling > 0 {
             // The filter was re-primed after a skip: this revolution only lets it settle.
             self.settling -= 1;
+            self.settled = self.settling == 0;
             self.prev = Some((rev.index, rev.t_end));
-            self.drop_through(pos_end);
+            self.drop_used(pos_end);
             return None;
         }
         self.resample_into_block(rev);
@@ -259,13 +277,63 @@ impl OrderTracker {
         self.revs_in_block += 1;
         self.prev = Some((rev.index, rev.t_end));
 
-        self.drop_through(pos_end);
+        self.drop_used(pos_end);
 
         if self.revs_in_block < self.cfg.revs_per_block {
             return None;
         }
         self.revs_in_block = 0;
         Some(self.finish_block(rev.t_end))
+    }
+
+    /// Sets the filtered stream up for a revolution whose anti-alias cutoff is `cutoff` Hz.
+    ///
+    /// A stream that is not running is primed at the first buffered sample, with the decimation
+    /// factor for the row ahead ([`Self::row_factor`]). One running with a factor that the speed has
+    /// since outgrown (the decimated rate would fall below [`MIN_RATE_OF_CUTOFF`] × the cutoff) is
+    /// restarted with a smaller factor at the start of the previous revolution, whose raw samples
+    /// are kept for this while decimating: that revolution lets the new stream settle, and the
+    /// block goes on. Without them the block is given up and this revolution only settles.
+    fn tune_stream(&mut self, rev: &Revolution, cutoff: f64, joined: bool) {
+        if !self.anti_alias {
+            if !self.stream.is_primed() || self.stream.factor() != 1 {
+                self.stream.prime(1, self.first_index);
+            }
+            self.stream.set_cutoff(f64::INFINITY);
+            return;
+        }
+        if !self.stream.is_primed() {
+            self.stream.prime(self.row_factor(rev), self.first_index);
+        } else {
+            let d = self.stream.factor();
+            if d > 1 && MIN_RATE_OF_CUTOFF * cutoff * d as f64 > self.sample_rate {
+                let new_d = self.row_factor(rev);
+                match self.last_rev_start {
+                    Some(start) if joined && start >= self.first_index => {
+                        self.stream.prime(new_d, start);
+                    }
+                    _ => {
+                        self.stream.prime(new_d, self.first_index);
+                        self.reset_block();
+                        self.settling = self.settling.max(1);
+                    }
+                }
+            }
+        }
+        self.stream.set_cutoff(cutoff);
+    }
+
+    /// Decimation factor for a row starting at `rev`: the largest that keeps the decimated rate at
+    /// least [`MIN_RATE_OF_CUTOFF`] × the cutoff at the highest speed expected in the row, which is
+    /// the speed `revs_per_block + 1` revolutions on at the revolution's acceleration (none if
+    /// decelerating), times [`SPEED_MARGIN`].
+    fn row_factor(&self, rev: &Revolution) -> usize {
+        let speed = 1.0 / rev.period();
+        let accel = (2.0 * rev.c2).max(0.0);
+        let row_s = (self.cfg.revs_per_block + 1) as f64 / speed;
+        let peak = (speed + accel * row_s) * SPEED_MARGIN;
+        let cutoff = CUTOFF_OF_NYQUIST * 0.5 * self.cfg.samples_per_rev as f64 * peak;
+        decimate::factor_for(self.sample_rate, cutoff)
     }
 
     /// Passes over one revolution without filtering or resampling it, for when no order-map row is
@@ -283,28 +351,41 @@ impl OrderTracker {
             let k = ((keep_from - first) as usize).min(self.samples.len());
             self.drop_front(k);
         }
-        self.filter.invalidate();
-        if self.filtered_to < self.first_index {
-            self.filtered_to = self.first_index;
-        }
+        self.stream.invalidate();
+        self.last_rev_start = None;
         self.settling = 1;
+        self.settled = false;
     }
 
     /// Whether the tracker is in the middle of something a skip would spoil: a block in progress,
-    /// or the filter settling before one.
+    /// or a filter that has just settled for one (its settling revolution was pushed).
+    ///
+    /// A tracker that was skipped is not busy: the filter settles on whichever revolution is pushed
+    /// next, so skipping it once more spoils nothing. (Reporting the pending settling as busy would
+    /// make a caller that samples rows push every other revolution between rows, only to settle
+    /// and drop it.)
     pub fn busy(&self) -> bool {
-        self.revs_in_block > 0 || self.settling > 0
+        self.revs_in_block > 0 || self.settled
     }
 
-    /// Drops the filtered samples before the one just ahead of `pos_end` (the next revolution's first
-    /// interpolation needs one sample before its start). Only filtered samples are dropped, so the
-    /// filter's state stays continuous.
-    fn drop_through(&mut self, pos_end: f64) {
-        let keep_from = pos_end.floor() - 1.0;
-        let first = self.first_index as f64;
-        if keep_from > first {
-            let filtered = (self.filtered_to - self.first_index) as usize;
-            let k = ((keep_from - first) as usize).min(filtered);
+    /// Drops what the revolutions after the one ending at raw position `pos_end` do not need: the
+    /// filtered outputs before the one just ahead of `pos_end` (the next revolution's first
+    /// interpolation needs one output before its start), and the raw samples the stream has
+    /// consumed, except, while decimating, those of the last revolution (see
+    /// [`tune_stream`](Self::tune_stream)).
+    fn drop_used(&mut self, pos_end: f64) {
+        let keep_out = self.stream.index_of(pos_end).floor() - 1.0;
+        if keep_out > 0.0 {
+            self.stream.drop_outputs(keep_out as usize);
+        }
+        let mut keep_raw = self.stream.needs_raw_from();
+        if self.stream.factor() > 1 {
+            if let Some(start) = self.last_rev_start {
+                keep_raw = keep_raw.min(start);
+            }
+        }
+        if keep_raw > self.first_index {
+            let k = ((keep_raw - self.first_index) as usize).min(self.samples.len());
             self.drop_front(k);
         }
     }
@@ -312,6 +393,7 @@ impl OrderTracker {
     /// Discards a partial block (tach lost, gap): the next block starts at the next revolution.
     pub fn reset_block(&mut self) {
         self.revs_in_block = 0;
+        self.settled = false;
         self.prev = None;
     }
 
@@ -326,14 +408,20 @@ impl OrderTracker {
         &self.cfg
     }
 
-    /// Samples currently buffered (filtered and raw), for memory checks.
+    /// Samples currently buffered (raw and filtered), for memory checks.
     pub fn buffered_samples(&self) -> usize {
-        self.samples.len()
+        self.samples.len() + self.stream.outputs().len()
     }
 
     /// Anti-alias cutoff applied to the last revolution, Hz, or `None` when bypassed.
     pub fn cutoff_hz(&self) -> Option<f64> {
-        self.filter.cutoff_hz()
+        self.stream.cutoff_hz()
+    }
+
+    /// Decimation factor ahead of the anti-alias low-pass for the current row (1: none), chosen
+    /// when the filter is primed; for monitoring the filter's cost and for tests.
+    pub fn decimation(&self) -> usize {
+        self.stream.factor()
     }
 
     fn plausible(&self, rev: &Revolution) -> bool {
@@ -350,43 +438,30 @@ impl OrderTracker {
     fn drop_front(&mut self, k: usize) {
         self.samples.drain(..k);
         self.first_index += k as u64;
-        if self.filtered_to < self.first_index {
+        if self.stream.is_primed() && self.stream.needs_raw_from() < self.first_index {
             // Raw samples were lost: the filter's state no longer follows the signal.
-            self.filtered_to = self.first_index;
-            self.filter.invalidate();
-        }
-    }
-
-    /// Filters buffer positions `from..to` in place, across the deque's two halves.
-    fn filter_range(&mut self, from: usize, to: usize) {
-        let (a, b) = self.samples.as_mut_slices();
-        let na = a.len();
-        if from < na {
-            self.filter.process(&mut a[from..to.min(na)]);
-        }
-        if to > na {
-            self.filter
-                .process(&mut b[from.saturating_sub(na)..to - na]);
+            self.stream.invalidate();
         }
     }
 
     fn resample_into_block(&mut self, rev: &Revolution) {
         let spr = self.cfg.samples_per_rev;
         let out = &mut self.filling[self.revs_in_block * spr..(self.revs_in_block + 1) * spr];
-        let first = self.first_index as f64;
+        let held = self.stream.outputs();
+        let (base, scale) = self.stream.mapping();
         for (j, o) in out.iter_mut().enumerate() {
             let t = rev.time_at(j as f64 / spr as f64);
-            let pos = (t - self.t0) * self.sample_rate - first;
-            let i = pos.floor();
-            let mu = pos - i;
-            // In range: the caller checked floor(pos) − 1 ≥ 0 and floor(pos) + 2 < len for the
-            // first and last angle, and times increase with the angle.
+            let q = ((t - self.t0) * self.sample_rate - base) * scale;
+            let i = q.floor();
+            let mu = q - i;
+            // In range: the caller checked floor(q) − 1 ≥ 0 and floor(q) + 2 < len for the first
+            // and last angle, and times increase with the angle.
             let k = i as usize;
             let p = [
-                f64::from(self.samples[k - 1]),
-                f64::from(self.samples[k]),
-                f64::from(self.samples[k + 1]),
-                f64::from(self.samples[k + 2]),
+                f64::from(held[k - 1]),
+                f64::from(held[k]),
+                f64::from(held[k + 1]),
+                f64::from(held[k + 2]),
             ];
             *o = cubic(p, mu) as f32;
         }

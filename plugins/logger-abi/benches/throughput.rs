@@ -1,0 +1,2 @@
+//! Throughput benchmark (written below).
+fn main() {}
