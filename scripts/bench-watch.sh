@@ -47,6 +47,7 @@ fi
 py=python3
 summary=()
 say() {
+    set -- "$* [load average $(cut -d' ' -f1-3 /proc/loadavg)]"
     echo "bench-watch: $*"
     summary+=("$*")
 }
@@ -312,18 +313,22 @@ def slope(pts):
     den = sum((t - mt) ** 2 for t, _ in pts)
     return num / den * 3600 if den else 0.0
 pts = [(x["t"], x["rss_kib"] / 1024) for x in s]
-late = [p for p in pts if p[0] >= pts[0][0] + 120]
+speed = feed["data_s"] / feed["wall_s"]
+half = pts[len(pts) // 2:]
 share = (s[-1]["ticks"] - s[0]["ticks"]) / hz / (s[-1]["t"] - s[0]["t"]) * 100
 db = sqlite3.connect(f"file:{d}/veer.db?mode=ro", uri=True)
 gaps = db.execute("select count(*) from gap").fetchone()[0]
 events = db.execute("select count(*) from event").fetchone()[0]
 vectors = db.execute("select count(*) from vector").fetchone()[0]
+marks = " ".join(f"{int(100 * i / 10)}%:{pts[min(len(pts) - 1, len(pts) * i // 10)][1]:.1f}" for i in range(1, 11))
 print(f"soak: {feed['data_s'] / 60:.1f} min of data ({feed['repeats']} plays) fed in "
-      f"{feed['wall_s'] / 60:.1f} min of wall time; RSS start {rss[0]:.1f} MB, median "
-      f"{statistics.median(rss):.1f} MB, max {max(rss):.1f} MB, end {rss[-1]:.1f} MB; slope "
-      f"{slope(pts):+.2f} MB/hour over the whole feed, {slope(late) if len(late) > 10 else float('nan'):+.2f} "
-      f"MB/hour after the first 2 min; CPU {share:.1f} % of one core; feed lateness max "
-      f"{feed['max_lag_s'] * 1e3:.0f} ms; gaps {gaps}; stored {events} events, {vectors} vector rows")
+      f"{feed['wall_s'] / 60:.1f} min of wall time ({speed:.1f}x real time); RSS start {rss[0]:.1f} MB, median "
+      f"{statistics.median(rss):.1f} MB, max {max(rss):.1f} MB, end {rss[-1]:.1f} MB (MB at each tenth of "
+      f"the feed: {marks}); linear-fit slope over the second half {slope(half) / speed:+.2f} MB per hour "
+      f"of data ({slope(half):+.2f} MB per wall hour), over the whole feed {slope(pts) / speed:+.2f} MB "
+      f"per hour of data; CPU {share:.1f} % of one core; feed lateness max "
+      f"{feed['max_lag_s'] * 1e3:.0f} ms, {feed['late_writes']} of {feed['frames'] // round(feed['rate'] / 100)} writes > 50 ms late; "
+      f"gaps {gaps}; stored {events} events, {vectors} vector rows")
 EOF
 )
     say "$line"

@@ -2,7 +2,7 @@
 //!
 //! Each one runs its body inside `catch_unwind`, so a bug in the library becomes `VEER_E_INTERNAL`
 //! and never unwinds into the caller's frames. There is no `unsafe` block here: pointers are
-//! turned into references only by [`crate::raw`]. The module allows `unsafe_code` for one reason,
+//! turned into references only by the `raw` module. The module allows `unsafe_code` for one reason,
 //! `#[no_mangle]`, which the lint counts as unsafe (a test checks that no `unsafe` block creeps in).
 #![allow(unsafe_code)]
 
@@ -321,4 +321,24 @@ pub extern "C" fn veer_last_error(h: VeerHandle, buf: *mut c_char, cap: usize) -
         msg.len()
     }));
     r.unwrap_or(0)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_panic_becomes_an_error_code_and_the_handle_waits_for_a_reset() {
+        assert_eq!(free_call(|| panic!("boom")), VEER_E_INTERNAL);
+        assert!(registry::thread_error().contains("boom"));
+        let cfg = "min_operating_rpm = 600\nmax_continuous_rpm = 1000\n\
+                   tach = { channel = \"t\" }\nsensors = [ { channel = \"v\", units = \"mm/s\" } ]\n";
+        let h = registry::insert(Tracker::from_config_str(cfg).expect("valid"));
+        assert_eq!(call(h, false, |_| panic!("inside")), VEER_E_INTERNAL);
+        // The tracker's lock was poisoned: refused until reset, then usable again.
+        assert_eq!(veer_finish(h), VEER_E_INTERNAL);
+        assert_eq!(veer_reset(h), VEER_OK);
+        assert_eq!(veer_finish(h), VEER_OK);
+        assert_eq!(veer_destroy(h), VEER_OK);
+    }
 }

@@ -7,10 +7,10 @@
 //! - [`exports`]: the `extern "C"` functions of `include/veer.h`. Every body runs inside
 //!   `catch_unwind`; errors are negative status codes ([`status`]) plus a message kept per handle
 //!   and per thread.
-//! - [`registry`]: handles are integers looked up in a table, never pointers, so a destroyed or
+//! - `registry`: handles are integers looked up in a table, never pointers, so a destroyed or
 //!   made-up handle is an error code rather than a use of freed memory; each tracker has its own
 //!   lock.
-//! - [`raw`]: the only module with `unsafe` blocks, turning the caller's pointers into slices,
+//! - `raw`: the only module with `unsafe` blocks, turning the caller's pointers into slices,
 //!   strings and output places after checking null, alignment and size.
 //! - [`tracker`]: safe Rust: the engine started at the first block, breaks in the timestamps, the
 //!   queue of results. [`config`] reads the configuration string (a machine's section of the

@@ -13,7 +13,7 @@ fn checked<T>(p: *const T, len: usize, what: &'static str) -> Result<(), AbiErro
     if p.is_null() {
         return Err(AbiError::Null(what));
     }
-    if (p as usize) % std::mem::align_of::<T>() != 0 {
+    if !p.is_aligned() {
         return Err(AbiError::Argument(format!(
             "`{what}` is not aligned for its element type"
         )));

@@ -275,7 +275,7 @@ impl Tracker {
                 want - 1
             )));
         }
-        if samples.len() % want != 0 {
+        if !samples.len().is_multiple_of(want) {
             return Err(AbiError::Length(format!(
                 "{} samples is not a whole number of {want}-channel frames",
                 samples.len()

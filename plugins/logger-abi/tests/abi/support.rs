@@ -35,12 +35,13 @@ pub fn shared_lib() -> PathBuf {
     lib_dir().join("libveer_abi.so")
 }
 
-/// The `veer` binary of the workspace, built on first use if the workspace build has not made it.
+/// The `veer` binary of the workspace, brought up to date on first use (a no-op when the
+/// workspace's own test build has just made it).
 pub fn veer_bin() -> &'static Path {
     static BIN: OnceLock<PathBuf> = OnceLock::new();
     BIN.get_or_init(|| {
         let bin = profile_dir().join("veer");
-        if !bin.exists() {
+        {
             let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".to_string());
             let mut cmd = Command::new(cargo);
             cmd.args(["build", "--quiet", "-p", "veer", "--bin", "veer"])

@@ -6,7 +6,7 @@
 //! raw samples for every angle sample it feeds. So when `fs / cutoff` is large the raw samples are
 //! first decimated by an integer `D` with a third-order CIC (cascaded integrator-comb) filter
 //! (E. B. Hogenauer, "An economical class of digital filters for decimation and interpolation",
-//! IEEE Trans. ASSP 29(2):155–162, 1981), whose response is
+//! IEEE Trans. ASSP 29(2), 1981; pages 155–162 from memory), whose response is
 //!
 //! `|H(f)| = |sin(π f D / fs) / (D sin(π f / fs))|³`,
 //!
@@ -28,9 +28,13 @@
 //! - **Look-ahead.** The CIC is a symmetric FIR whose centre lies `3(D − 1)/2` input samples before
 //!   its newest input, and the compensator adds one decimated sample; the time mapping accounts for
 //!   both, so the filtered stream is not shifted against the raw one. The last angle point of a
-//!   revolution then needs raw samples up to about `3.5·D` after it, which is less than the
-//!   `1/samples_per_rev` of a revolution that separates it from the revolution's end whenever the
-//!   decimated rate is at least 9 × the cutoff.
+//!   revolution then needs raw samples up to `4.5·D − 1.5` after it (`3(D − 1)/2` to the CIC's
+//!   newest input, `D` for the compensator, `2D` for the interpolation's two points beyond), which
+//!   is less than the `1/samples_per_rev` of a revolution that separates it from the revolution's
+//!   end whenever the decimated rate is at least 11.25 × the cutoff (the cutoff being
+//!   `0.4 × samples_per_rev` orders). At 12 × the margin is 6 % of an angle step: only a revolution
+//!   whose speed changes by more than about 12 % within itself would find its last outputs
+//!   missing, and be dropped like one whose samples are not there.
 //!
 //! **FIR form.** Hogenauer's structure (integrators at the input rate, combs at the output rate) is
 //! a running-sum recurrence: three dependent additions per input sample, and with floating-point

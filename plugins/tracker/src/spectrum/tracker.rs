@@ -341,7 +341,8 @@ impl OrderTracker {
     /// anti-alias filter is the costliest per-sample work of the engine). Its samples are dropped, the
     /// partial block is discarded, and the next revolution pushed only re-primes and settles the
     /// filter (its impulse response dies out within a small fraction of a turn at a cutoff of ~25X),
-    /// so the block after it starts clean.
+    /// so the block after it starts clean. That re-prime also chooses the decimation factor for the
+    /// row ([`decimation`](Self::decimation)), from that revolution's speed and acceleration.
     pub fn skip_revolution(&mut self, rev: &Revolution) {
         self.reset_block();
         let pos_end = (rev.t_end - self.t0) * self.sample_rate;
