@@ -159,26 +159,32 @@ impl AlertEngine {
             self.interrupt_speed_rules();
             return out;
         }
-        let Some(point) = self.speed.push(time_s, rpm, state == MachineState::Steady) else {
-            return out;
-        };
-        if !point.steady {
+        let steady = state == MachineState::Steady;
+        let closed = self.speed.push(time_s, rpm, steady);
+        if !steady {
             self.interrupt_speed_rules();
             return out;
         }
         let s = self.settings;
         let criticals = std::mem::take(&mut self.criticals);
+        // The margin is judged on every reading as it arrives, so an alert follows its data within
+        // the reading's own averaging (about a second), whatever the drift window's bucket length.
         for c in &criticals {
-            let f = MarginFinding::new(c, point.rpm, s.rule, s.warn_band_pct, s.hysteresis_pct);
+            let f = MarginFinding::new(c, rpm, s.rule, s.warn_band_pct, s.hysteresis_pct);
             out.extend(self.judge(
                 AlertKind::Margin,
                 &c.key,
-                point.t,
+                time_s,
                 f.raw(),
                 f.recovered(),
                 &f,
             ));
         }
+        // The trend is fitted over closed buckets only.
+        let Some(point) = closed.filter(|p| p.steady) else {
+            self.criticals = criticals;
+            return out;
+        };
         if s.horizon_min > 0.0 {
             if let Some(fit) = drift::fit(self.speed.points(), self.speed.window_s()) {
                 for c in &criticals {
