@@ -1,0 +1,195 @@
+//! The alert rule: a critical closing in on the operating range, or a 1X vector change.
+//!
+//! The informative estimates of the last [`DriftAlertConfig::trend_window_s`] are fitted with a
+//! straight line in time (weights `1/σ²`), projected [`DriftAlertConfig::horizon_s`] ahead, and the
+//! pessimistic bound — the estimate moved `sigmas` standard deviations towards the range — is turned
+//! into the critical speed (the amplitude peak, `Nn/√(1 − 2ζ²)`, which is what API RP 684 margins are
+//! measured on) and held to the required separation margin ([`crate::margin`]). The present estimate
+//! is held to the margin too, so a critical that is already too close alerts even without a trend.
+//! Windows classified as an unbalance change never feed the trend; they raise a vector-change alert.
+
+use super::classify::Change;
+use super::estimate::Estimate;
+use super::model::CriticalModel;
+use crate::margin::{actual_margin_pct, required_margin_pct, MarginRule, OperatingRange, Side};
+use std::collections::VecDeque;
+
+/// Settings of the alert rule.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DriftAlertConfig {
+    /// The speeds the machine runs at.
+    pub range: OperatingRange,
+    /// The separation-margin rule it is held to.
+    pub rule: MarginRule,
+    /// The critical's AF (from the run-up), `None` if unknown (the rule's cap applies).
+    pub af: Option<f64>,
+    /// How far ahead the trend is projected, s.
+    pub horizon_s: f64,
+    /// How much history the trend is fitted over, s.
+    pub trend_window_s: f64,
+    /// How many standard deviations the bound lies towards the range.
+    pub sigmas: f64,
+    /// Consecutive windows that must agree before an alert is raised (and before it re-arms).
+    pub persistence: usize,
+}
+
+/// An alert.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum DriftAlertEvent {
+    /// The critical is, or within the horizon is projected to be, closer than the required margin.
+    CriticalApproach {
+        /// Time of the window that raised it, s.
+        time_s: f64,
+        /// The pessimistic critical speed held to the margin, r/min.
+        critical_rpm: f64,
+        /// Its margin, percent.
+        actual_pct: f64,
+        /// The margin required, percent.
+        required_pct: f64,
+        /// Side of the range the critical lies on.
+        side: Side,
+    },
+    /// The 1X vector moved off the model's locus: an unbalance change, not a critical shift.
+    VectorChange {
+        /// Time of the window that raised it, s.
+        time_s: f64,
+        /// Its locus residual.
+        locus_residual: f64,
+    },
+}
+
+/// The alert rule for one critical.
+#[derive(Clone, Debug)]
+pub struct DriftAlert {
+    cfg: DriftAlertConfig,
+    peak_factor: f64,
+    history: VecDeque<(f64, f64, f64)>,
+    approach_run: usize,
+    clear_run: usize,
+    approach_raised: bool,
+    vector_run: usize,
+    vector_raised: bool,
+}
+
+impl DriftAlert {
+    /// The rule for the critical of `model`.
+    pub fn new(cfg: DriftAlertConfig, model: &CriticalModel) -> Self {
+        Self {
+            cfg,
+            peak_factor: model.critical_rpm(1.0),
+            history: VecDeque::new(),
+            approach_run: 0,
+            clear_run: 0,
+            approach_raised: false,
+            vector_run: 0,
+            vector_raised: false,
+        }
+    }
+
+    /// The pessimistic natural speed the last update held to the margin, with the trend applied;
+    /// `None` before two informative windows.
+    fn bound(&self, toward_lower: bool) -> Option<f64> {
+        let &(t_now, nn_now, s_now) = self.history.back()?;
+        let k = self.cfg.sigmas;
+        let sign = if toward_lower { -1.0 } else { 1.0 };
+        let present = nn_now + sign * k * s_now;
+        if self.history.len() < 3 {
+            return Some(present);
+        }
+        let (mut sw, mut st, mut sn) = (0.0, 0.0, 0.0);
+        for &(t, nn, s) in &self.history {
+            let w = 1.0 / (s * s).max(1e-12);
+            sw += w;
+            st += w * t;
+            sn += w * nn;
+        }
+        let (tm, nm) = (st / sw, sn / sw);
+        let (mut stt, mut stn) = (0.0, 0.0);
+        for &(t, nn, s) in &self.history {
+            let w = 1.0 / (s * s).max(1e-12);
+            stt += w * (t - tm) * (t - tm);
+            stn += w * (t - tm) * (nn - nm);
+        }
+        if !(stt > 0.0) {
+            return Some(present);
+        }
+        let slope = stn / stt;
+        let mut chi2 = 0.0;
+        for &(t, nn, s) in &self.history {
+            let e = nn - nm - slope * (t - tm);
+            chi2 += e * e / (s * s).max(1e-12);
+        }
+        let scale = (chi2 / (self.history.len() - 2) as f64).max(1.0);
+        let tp = t_now + self.cfg.horizon_s;
+        let pred = nm + slope * (tp - tm);
+        let sigma = ((1.0 / sw + (tp - tm).powi(2) / stt) * scale).sqrt();
+        let projected = pred + sign * k * sigma;
+        // Only a trend towards the range counts; a trend away leaves the present bound.
+        Some(if toward_lower {
+            present.min(projected)
+        } else {
+            present.max(projected)
+        })
+    }
+
+    /// Takes one window's estimate; returns an alert when one is raised. Each alert is raised once
+    /// and re-armed after `persistence` windows without its condition.
+    pub fn update(&mut self, e: &Estimate) -> Option<DriftAlertEvent> {
+        let persistence = self.cfg.persistence.max(1);
+        if e.change == Change::Unbalance {
+            self.vector_run += 1;
+            if self.vector_run >= persistence && !self.vector_raised {
+                self.vector_raised = true;
+                return Some(DriftAlertEvent::VectorChange {
+                    time_s: e.time_s,
+                    locus_residual: e.locus_residual,
+                });
+            }
+            return None;
+        }
+        if self.vector_run > 0 {
+            self.vector_run = 0;
+            self.vector_raised = false;
+        }
+        if !e.informative {
+            return None;
+        }
+        self.history.push_back((e.time_s, e.natural_rpm, e.sigma_rpm));
+        while let Some(&(t, _, _)) = self.history.front() {
+            if e.time_s - t > self.cfg.trend_window_s {
+                self.history.pop_front();
+            } else {
+                break;
+            }
+        }
+        let range = &self.cfg.range;
+        let (side_now, _) = actual_margin_pct(e.natural_rpm * self.peak_factor, range);
+        let toward_lower = side_now != Side::Below;
+        let nn = self.bound(toward_lower)?;
+        let critical_rpm = nn * self.peak_factor;
+        let (side, actual_pct) = actual_margin_pct(critical_rpm, range);
+        let required_pct = required_margin_pct(self.cfg.rule, self.cfg.af, side);
+        let breach = side == Side::Inside || actual_pct < required_pct;
+        if breach {
+            self.approach_run += 1;
+            self.clear_run = 0;
+        } else {
+            self.clear_run += 1;
+            self.approach_run = 0;
+            if self.clear_run >= persistence {
+                self.approach_raised = false;
+            }
+        }
+        if breach && self.approach_run >= persistence && !self.approach_raised {
+            self.approach_raised = true;
+            return Some(DriftAlertEvent::CriticalApproach {
+                time_s: e.time_s,
+                critical_rpm,
+                actual_pct,
+                required_pct,
+                side,
+            });
+        }
+        None
+    }
+}
