@@ -11,6 +11,8 @@
 //! - [`states`]: machine states and run detection (run-ups and coast-downs).
 //! - [`resonance`]: critical speeds from an event's 1X response, with amplification factor, damping and
 //!   a single-mode fit; [`margin`]: the separation margin each critical requires and has.
+//! - [`drift`]: critical speeds tracked between run-ups from the 1X phase at steady speed, with the
+//!   alert when one closes in on the operating range.
 //! - [`engine`]: the streaming engine that ties them together; [`sim`] simulates a rotor for demos and
 //!   tests.
 //!
@@ -19,6 +21,7 @@
 
 pub mod angle;
 pub mod config;
+pub mod drift;
 pub mod engine;
 pub mod margin;
 pub mod resonance;

@@ -9,6 +9,8 @@
 #[path = "engine_checks/support.rs"]
 mod support;
 
+#[path = "engine_checks/drift.rs"]
+mod drift;
 #[path = "engine_checks/jeffcott.rs"]
 mod jeffcott;
 #[path = "engine_checks/margins.rs"]

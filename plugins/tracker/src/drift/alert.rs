@@ -11,6 +11,7 @@
 use super::classify::Change;
 use super::estimate::Estimate;
 use super::model::CriticalModel;
+use super::DriftError;
 use crate::margin::{actual_margin_pct, required_margin_pct, MarginRule, OperatingRange, Side};
 use std::collections::VecDeque;
 
@@ -31,6 +32,43 @@ pub struct DriftAlertConfig {
     pub sigmas: f64,
     /// Consecutive windows that must agree before an alert is raised (and before it re-arms).
     pub persistence: usize,
+}
+
+/// Most estimates the trend keeps, whatever `trend_window_s` says: memory stays bounded.
+const MAX_HISTORY: usize = 4096;
+
+impl DriftAlertConfig {
+    /// Checks every setting, so that a configuration file cannot silently switch the alert off.
+    pub fn validate(&self) -> Result<(), DriftError> {
+        let bad = |field, value, reason| {
+            Err(DriftError::InvalidConfig {
+                field,
+                value,
+                reason,
+            })
+        };
+        if self.range.validate().is_err() {
+            return bad(
+                "range",
+                self.range.min_rpm,
+                "both ends must be positive and finite, min ≤ max",
+            );
+        }
+        if !(self.horizon_s.is_finite() && self.horizon_s >= 0.0) {
+            return bad(
+                "horizon_s",
+                self.horizon_s,
+                "must be finite and not negative",
+            );
+        }
+        if !(self.trend_window_s.is_finite() && self.trend_window_s > 0.0) {
+            return bad("trend_window_s", self.trend_window_s, "must be positive");
+        }
+        if !(self.sigmas.is_finite() && self.sigmas >= 0.0) {
+            return bad("sigmas", self.sigmas, "must be finite and not negative");
+        }
+        Ok(())
+    }
 }
 
 /// An alert.
@@ -72,9 +110,10 @@ pub struct DriftAlert {
 }
 
 impl DriftAlert {
-    /// The rule for the critical of `model`.
-    pub fn new(cfg: DriftAlertConfig, model: &CriticalModel) -> Self {
-        Self {
+    /// The rule for the critical of `model`; refuses an invalid configuration.
+    pub fn new(cfg: DriftAlertConfig, model: &CriticalModel) -> Result<Self, DriftError> {
+        cfg.validate()?;
+        Ok(Self {
             cfg,
             peak_factor: model.critical_rpm(1.0),
             history: VecDeque::new(),
@@ -83,11 +122,11 @@ impl DriftAlert {
             approach_raised: false,
             vector_run: 0,
             vector_raised: false,
-        }
+        })
     }
 
-    /// The pessimistic natural speed the last update held to the margin, with the trend applied;
-    /// `None` before two informative windows.
+    /// The pessimistic natural speed to hold to the margin: the latest estimate or, from three
+    /// windows on, the projected trend, whichever is closer to the range; `None` with no history.
     fn bound(&self, toward_lower: bool) -> Option<f64> {
         let &(t_now, nn_now, s_now) = self.history.back()?;
         let k = self.cfg.sigmas;
@@ -154,9 +193,10 @@ impl DriftAlert {
         if !e.informative {
             return None;
         }
-        self.history.push_back((e.time_s, e.natural_rpm, e.sigma_rpm));
+        self.history
+            .push_back((e.time_s, e.natural_rpm, e.sigma_rpm));
         while let Some(&(t, _, _)) = self.history.front() {
-            if e.time_s - t > self.cfg.trend_window_s {
+            if e.time_s - t > self.cfg.trend_window_s || self.history.len() > MAX_HISTORY {
                 self.history.pop_front();
             } else {
                 break;

@@ -26,8 +26,9 @@ pub enum Change {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ClassifyConfig {
     /// A locus residual (relative to the vector's size) above this is off the locus whatever the
-    /// noise: the floor for model error (fit error of `m`, `b` and ζ). 0.1 is well above what a
-    /// good run-up fit leaves and well below the 0.5 a 30° turn of the unbalance gives.
+    /// noise: the floor for model error (fit error of `m`, `b` and ζ). 0.05 is several times what
+    /// a good run-up fit leaves on a drifting mode, and well below the 0.5 a 30° turn of the
+    /// unbalance gives at r ≈ 0.77 (or the 0.08 of a 30 % growth of its amplitude).
     pub min_locus_residual: f64,
     /// ... and above this many standard deviations of its noise.
     pub locus_sigmas: f64,
@@ -41,7 +42,7 @@ pub struct ClassifyConfig {
 impl Default for ClassifyConfig {
     fn default() -> Self {
         Self {
-            min_locus_residual: 0.1,
+            min_locus_residual: 0.05,
             locus_sigmas: 5.0,
             shift_sigmas: 3.0,
             min_shift_pct: 1.0,

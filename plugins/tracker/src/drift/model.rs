@@ -156,7 +156,10 @@ impl CriticalModel {
             return bad("the modal vector must be finite and non-zero");
         }
         let others = [self.background, self.slow_roll];
-        if others.iter().any(|v| !(v.re.is_finite() && v.im.is_finite())) {
+        if others
+            .iter()
+            .any(|v| !(v.re.is_finite() && v.im.is_finite()))
+        {
             return bad("the background and slow-roll vectors must be finite");
         }
         Ok(())

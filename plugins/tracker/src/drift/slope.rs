@@ -28,7 +28,7 @@ pub fn log_slope(r: f64, zeta: f64) -> f64 {
 /// The lag's curvature `d²φ/d(ln N)² = d p/d ln N`, by a central difference of [`log_slope`] in
 /// `ln r` (step 1e-5: truncation error below 1e-9 of the value on the test grid).
 pub fn log_curvature(r: f64, zeta: f64) -> f64 {
-    let h = 1e-5;
+    let h: f64 = 1e-5;
     (log_slope(r * h.exp(), zeta) - log_slope(r * (-h).exp(), zeta)) / (2.0 * h)
 }
 
@@ -177,8 +177,11 @@ pub struct SlopeEstimate {
     pub method: Method,
 }
 
-/// Regression sums in `u = 100·ln(N/N_ref)` (percent, for conditioning) and the lag relative to the
-/// window's first vector (relative angles stay far from the ±180° wrap).
+/// Regression sums over the basis `[1, u, τ, u²]`: `u = 100·ln(N/N_ref)` (percent, for
+/// conditioning), `τ` the time since the window began in windows, and the lag `y` relative to the
+/// window's first vector (relative angles stay far from the ±180° wrap). The `τ` column takes up the
+/// natural speed's own drift over the window: with a wander that trends over the window, that drift
+/// would otherwise leak into the slope.
 #[derive(Clone, Copy, Debug, Default)]
 struct Sums {
     n: f64,
@@ -187,10 +190,8 @@ struct Sums {
     rpm_ref: f64,
     v_ref: Complex64,
     sum_rpm: f64,
-    su: [f64; 5],
-    sy: f64,
-    suy: f64,
-    su2y: f64,
+    a: [[f64; 4]; 4],
+    b: [f64; 4],
     syy: f64,
 }
 
@@ -257,18 +258,20 @@ impl SlopeEstimator {
             s.v_ref = v;
         }
         let u = 100.0 * (rpm / s.rpm_ref).ln();
+        let tau = (time_s - s.t_first) / self.cfg.window_s;
         let y = -(v * s.v_ref.conj()).arg();
         s.n += 1.0;
         s.t_last = time_s;
         s.sum_rpm += rpm;
-        let mut p = 1.0;
-        for k in s.su.iter_mut() {
-            *k += p;
-            p *= u;
+        let p = [1.0, u, tau, u * u];
+        for (row, &pi) in s.a.iter_mut().zip(&p) {
+            for (cell, &pj) in row.iter_mut().zip(&p) {
+                *cell += pi * pj;
+            }
         }
-        s.sy += y;
-        s.suy += u * y;
-        s.su2y += u * u * y;
+        for (bi, &pi) in s.b.iter_mut().zip(&p) {
+            *bi += pi * y;
+        }
         s.syy += y * y;
         if s.t_last - s.t_first < self.cfg.window_s || s.n < 10.0 {
             return None;
@@ -281,33 +284,31 @@ impl SlopeEstimator {
     fn evaluate(&self, s: &Sums) -> SlopeEstimate {
         let n = s.n;
         let rpm = s.sum_rpm / n;
-        // Straight line y = a + b·u for the slope and its noise.
-        let su = s.su[1];
-        let suu_c = s.su[2] - su * su / n;
-        let suy_c = s.suy - su * s.sy / n;
-        let syy_c = s.syy - s.sy * s.sy / n;
-        let b = if suu_c > 0.0 { suy_c / suu_c } else { f64::NAN };
-        let resid = ((syy_c - b * suy_c) / (n - 2.0)).max(0.0);
-        let sigma_b = (resid / suu_c).sqrt();
-        // Quadratic y = c0 + c1·u + c2·u² for the curvature (normal equations, Cramer's rule).
-        let m = [
-            [s.su[0], s.su[1], s.su[2]],
-            [s.su[1], s.su[2], s.su[3]],
-            [s.su[2], s.su[3], s.su[4]],
-        ];
-        let rhs = [s.sy, s.suy, s.su2y];
-        let c2 = solve3(m, rhs).map_or(f64::NAN, |c| c[2]);
+        // y = c0 + c1·u + c2·τ for the slope and its noise; with c3·u² added for the curvature.
+        let line = solve::<3>(&s.a, &s.b);
+        let (b, sigma_b) = match line {
+            Some(c) => {
+                let fitted: f64 = c.iter().zip(&s.b).map(|(ci, bi)| ci * bi).sum();
+                let resid = ((s.syy - fitted) / (n - 3.0)).max(0.0);
+                let mut e1 = [0.0; 4];
+                e1[1] = 1.0;
+                let var = solve::<3>(&s.a, &e1).map_or(f64::INFINITY, |w| w[1] * resid);
+                (c[1], var.max(0.0).sqrt())
+            }
+            None => (f64::NAN, f64::INFINITY),
+        };
+        let c3 = solve::<4>(&s.a, &s.b).map_or(f64::NAN, |c| c[3]);
         // Per unit ln N: u is in percent.
         let slope = 100.0 * b;
         let sigma_slope = 100.0 * sigma_b;
-        let curvature = 2.0 * 1e4 * c2;
+        let curvature = 2.0 * 1e4 * c3;
         let zeta = self.cfg.damping_ratio;
         let r = ratio_from_slope(slope, zeta, self.cfg.below_critical);
         let (natural_rpm, sigma_rpm, ratio) = match r {
             Some(r) => {
-                let h = 1e-6;
-                let dp = (log_slope(r * h.exp(), zeta) - log_slope(r * (-h).exp(), zeta))
-                    / (2.0 * h);
+                let h: f64 = 1e-6;
+                let dp =
+                    (log_slope(r * h.exp(), zeta) - log_slope(r * (-h).exp(), zeta)) / (2.0 * h);
                 // σ of ln r from σ of the slope; Nn = N/r.
                 let sigma_lnr = sigma_slope / dp.abs();
                 let nn = rpm / r;
@@ -341,24 +342,36 @@ impl SlopeEstimator {
     }
 }
 
-/// Solves a 3×3 system by Cramer's rule; `None` when it is singular.
-fn solve3(m: [[f64; 3]; 3], b: [f64; 3]) -> Option<[f64; 3]> {
-    let det = |a: [[f64; 3]; 3]| {
-        a[0][0] * (a[1][1] * a[2][2] - a[1][2] * a[2][1])
-            - a[0][1] * (a[1][0] * a[2][2] - a[1][2] * a[2][0])
-            + a[0][2] * (a[1][0] * a[2][1] - a[1][1] * a[2][0])
-    };
-    let d = det(m);
-    if !(d.abs() > 1e-300) {
-        return None;
+/// Solves the leading `N×N` block of the normal equations by Gaussian elimination with partial
+/// pivoting; `None` when it is singular.
+fn solve<const N: usize>(a: &[[f64; 4]; 4], b: &[f64; 4]) -> Option<[f64; 4]> {
+    let mut m = [[0.0; 4]; 4];
+    let mut x = [0.0; 4];
+    for i in 0..N {
+        m[i][..N].copy_from_slice(&a[i][..N]);
+        x[i] = b[i];
     }
-    let mut out = [0.0; 3];
-    for (k, o) in out.iter_mut().enumerate() {
-        let mut a = m;
-        for (row, &bv) in a.iter_mut().zip(&b) {
-            row[k] = bv;
+    let scale = (0..N).map(|i| m[i][i].abs()).fold(0.0, f64::max);
+    for col in 0..N {
+        let piv = (col..N).max_by(|&i, &j| m[i][col].abs().total_cmp(&m[j][col].abs()))?;
+        if !(m[piv][col].abs() > 1e-13 * scale) {
+            return None;
         }
-        *o = det(a) / d;
+        m.swap(col, piv);
+        x.swap(col, piv);
+        let pivot_row = m[col];
+        let pivot_x = x[col];
+        for (row, xr) in m.iter_mut().zip(x.iter_mut()).take(N).skip(col + 1) {
+            let f = row[col] / pivot_row[col];
+            for (cell, &p) in row.iter_mut().zip(&pivot_row).take(N).skip(col) {
+                *cell -= f * p;
+            }
+            *xr -= f * pivot_x;
+        }
     }
-    Some(out)
+    for row in (0..N).rev() {
+        let s: f64 = (row + 1..N).map(|k| m[row][k] * x[k]).sum();
+        x[row] = (x[row] - s) / m[row][row];
+    }
+    Some(x)
 }
