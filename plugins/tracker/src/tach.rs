@@ -3,9 +3,9 @@
 //! A threshold with hysteresis finds each pulse edge; its time is interpolated between the two samples
 //! that straddle the trigger level, because the accuracy of computed order tracking is set by the timing
 //! accuracy of the reference pulses (Fyfe & Munck, MSSP 11(2), 1997). The levels are learnt from the
-//! signal's own envelope unless configured, so the same settings serve a 24 V proximity probe watching a once-per-turn notch
-//! and a 5 V optical sensor. Pulses are handed to [`crate::angle`], which groups teeth into revolutions
-//! and repairs missing or extra pulses.
+//! signal's own envelope unless configured, so the same settings serve a 24 V proximity probe
+//! watching a once-per-turn notch and a 5 V optical sensor. Pulses are handed to [`crate::angle`],
+//! which groups teeth into revolutions and repairs missing or extra pulses.
 
 use thiserror::Error;
 
