@@ -163,6 +163,7 @@ impl Worker {
     /// Runs jobs until the channel closes.
     pub(crate) fn run(mut self, mut jobs: mpsc::Receiver<Job>) {
         self.load_carried_over();
+        self.load_measured();
         while let Some(job) = jobs.blocking_recv() {
             match job {
                 Job::File(path) => {
@@ -178,6 +179,30 @@ impl Worker {
         if self.writer.send(Record::Flush(tx)).is_ok() {
             let _ = rx.blocking_recv();
         }
+    }
+
+    /// After a restart the rules start from the criticals as last measured, not the design values:
+    /// the measured ones stored by earlier runs update the known criticals as a new event would.
+    fn load_measured(&mut self) {
+        let (tx, rx) = oneshot::channel();
+        if self
+            .writer
+            .send(Record::Criticals {
+                machine: self.machine.id.clone(),
+                reply: tx,
+            })
+            .is_err()
+        {
+            return;
+        }
+        let found: Vec<(String, f64, Option<f64>)> = rx
+            .blocking_recv()
+            .unwrap_or_default()
+            .into_iter()
+            .filter(|c| c.3)
+            .map(|(ch, rpm, af, _)| (ch.unwrap_or_default(), rpm, af))
+            .collect();
+        self.follow_measured(&found);
     }
 
     /// Asks the writer which of the machine's alerts a previous run left open, so that the same

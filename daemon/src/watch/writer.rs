@@ -83,6 +83,11 @@ pub(crate) enum Record {
     AlertClose { id: AlertId, time: f64 },
     /// Replies once everything before it is committed.
     Flush(oneshot::Sender<()>),
+    /// The machine's current critical speeds as stored (design and measured): channel, speed, AF.
+    Criticals {
+        machine: String,
+        reply: oneshot::Sender<Vec<(Option<String>, f64, Option<f64>, bool)>>,
+    },
     /// The alerts of a machine still open in the database: kind, key, severity.
     OpenAlerts {
         machine: String,
@@ -299,6 +304,17 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Recor
             if let Some(old) = alerts.remove(&id) {
                 store.close_alert(old.id, time.max(old.opened_at))?;
             }
+        }
+        Record::Criticals { machine, reply } => {
+            let rows = store
+                .current_criticals(&machine)?
+                .into_iter()
+                .map(|c| {
+                    let measured = matches!(c.origin, CriticalOrigin::Measured { .. });
+                    (c.channel.clone(), c.speed_rpm, c.amplification_factor, measured)
+                })
+                .collect();
+            let _ = reply.send(rows);
         }
         Record::OpenAlerts { machine, reply } => {
             let open = alerts
