@@ -311,7 +311,12 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Recor
                 .into_iter()
                 .map(|c| {
                     let measured = matches!(c.origin, CriticalOrigin::Measured { .. });
-                    (c.channel.clone(), c.speed_rpm, c.amplification_factor, measured)
+                    (
+                        c.channel.clone(),
+                        c.speed_rpm,
+                        c.amplification_factor,
+                        measured,
+                    )
                 })
                 .collect();
             let _ = reply.send(rows);
