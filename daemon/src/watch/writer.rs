@@ -86,7 +86,7 @@ pub(crate) enum Record {
     /// The machine's current critical speeds as stored (design and measured): channel, speed, AF.
     Criticals {
         machine: String,
-        reply: oneshot::Sender<Vec<(Option<String>, f64, Option<f64>, bool)>>,
+        reply: oneshot::Sender<Vec<StoredCritical>>,
     },
     /// The alerts of a machine still open in the database: kind, key, severity.
     OpenAlerts {
@@ -94,6 +94,9 @@ pub(crate) enum Record {
         reply: oneshot::Sender<Vec<(String, String, Severity)>>,
     },
 }
+
+/// A stored critical as the worker needs it: channel, speed (r/min), AF, and whether measured.
+pub(crate) type StoredCritical = (Option<String>, f64, Option<f64>, bool);
 
 /// An alert row still open in the database.
 #[derive(Clone, Copy, Debug)]
