@@ -158,11 +158,10 @@ pub extern "C" fn veer_channel_count(h: VeerHandle, out: *mut usize) -> i32 {
     })
 }
 
-/// Pushes `n_frames` interleaved f32 frames of `n_channels` samples (tach first).
-#[no_mangle]
-pub extern "C" fn veer_push_f32(
+/// The interleaved push of either sample type.
+fn push_interleaved<S: crate::tracker::Sample>(
     h: VeerHandle,
-    samples: *const f32,
+    samples: *const S,
     n_frames: usize,
     n_channels: usize,
     sample_rate: f64,
@@ -178,6 +177,19 @@ pub extern "C" fn veer_push_f32(
     })
 }
 
+/// Pushes `n_frames` interleaved f32 frames of `n_channels` samples (tach first).
+#[no_mangle]
+pub extern "C" fn veer_push_f32(
+    h: VeerHandle,
+    samples: *const f32,
+    n_frames: usize,
+    n_channels: usize,
+    sample_rate: f64,
+    t0: f64,
+) -> i32 {
+    push_interleaved(h, samples, n_frames, n_channels, sample_rate, t0)
+}
+
 /// Pushes `n_frames` interleaved f64 frames of `n_channels` samples (tach first).
 #[no_mangle]
 pub extern "C" fn veer_push_f64(
@@ -188,14 +200,7 @@ pub extern "C" fn veer_push_f64(
     sample_rate: f64,
     t0: f64,
 ) -> i32 {
-    call(h, false, |t| {
-        let n = n_frames
-            .checked_mul(n_channels)
-            .ok_or_else(|| AbiError::Length("n_frames × n_channels overflows".to_string()))?;
-        let s = raw::slice(samples, n, "samples")?;
-        t.push_interleaved(s, n_channels, sample_rate, t0)?;
-        Ok(VEER_OK)
-    })
+    push_interleaved(h, samples, n_frames, n_channels, sample_rate, t0)
 }
 
 /// Pushes one f32 buffer per channel (`channels[0]` the tach), each of `n_frames` samples.

@@ -185,13 +185,14 @@ impl Tracker {
         }
     }
 
-    /// Feeds one block given one slice per channel (tach first), all of the same length.
-    pub fn push_planar<S: Sample>(
+    /// Checks a planar block (channel count, equal lengths, finite samples) and starts it at
+    /// `rate` and `t0`; returns its number of frames. Nothing is consumed when it fails.
+    fn check_planar<S: Sample>(
         &mut self,
         channels: &[&[S]],
         rate: f64,
         t0: f64,
-    ) -> Result<(), AbiError> {
+    ) -> Result<usize, AbiError> {
         let want = self.channel_count();
         if channels.len() != want {
             return Err(AbiError::Length(format!(
@@ -200,7 +201,7 @@ impl Tracker {
                 want - 1
             )));
         }
-        let frames = channels[0].len();
+        let frames = channels.first().map_or(0, |c| c.len());
         if let Some(i) = channels.iter().position(|c| c.len() != frames) {
             return Err(AbiError::Length(format!(
                 "channel {i} has {} samples, the tach {frames}",
@@ -213,7 +214,17 @@ impl Tracker {
             }
         }
         self.begin(rate, t0, frames)?;
-        if frames == 0 {
+        Ok(frames)
+    }
+
+    /// Feeds one block given one slice per channel (tach first), all of the same length.
+    pub fn push_planar<S: Sample>(
+        &mut self,
+        channels: &[&[S]],
+        rate: f64,
+        t0: f64,
+    ) -> Result<(), AbiError> {
+        if self.check_planar(channels, rate, t0)? == 0 {
             return Ok(());
         }
         let mut scratch = std::mem::take(&mut self.scratch);
@@ -233,28 +244,7 @@ impl Tracker {
         rate: f64,
         t0: f64,
     ) -> Result<(), AbiError> {
-        let want = self.channel_count();
-        if channels.len() != want {
-            return Err(AbiError::Length(format!(
-                "{} channels given, {want} expected (the tach, then {} sensor(s))",
-                channels.len(),
-                want - 1
-            )));
-        }
-        let frames = channels[0].len();
-        if let Some(i) = channels.iter().position(|c| c.len() != frames) {
-            return Err(AbiError::Length(format!(
-                "channel {i} has {} samples, the tach {frames}",
-                channels[i].len()
-            )));
-        }
-        for (i, c) in channels.iter().enumerate() {
-            if let Some(k) = c.iter().position(|x| !x.is_finite()) {
-                return Err(self.nonfinite(i, k));
-            }
-        }
-        self.begin(rate, t0, frames)?;
-        if frames == 0 {
+        if self.check_planar(channels, rate, t0)? == 0 {
             return Ok(());
         }
         self.feed(channels)
