@@ -58,8 +58,8 @@ pub use error::StorageError;
 pub use kinds::{AlertState, EventKind, IngestKind, IngestStatus, Series, Severity};
 pub use rows::{
     AlertRow, CriticalOrigin, CriticalRow, DownsampleStats, EstimateRow, EventChannelRow, EventRow,
-    GapRow, HealthRow, IngestRow, MachineRow, NewIngest, OrderMapRow, Polar, ResonanceRow,
-    SensorRow, SlowRoll, Stored, TrendRow, VectorPoint, VectorTrace,
+    GapRow, HealthRow, IngestRow, MachineRow, ModelRow, NewIngest, OrderMapRow, Polar,
+    ResonanceRow, SensorRow, SlowRoll, Stored, TrendRow, VectorPoint, VectorTrace,
 };
 pub use schema::{APPLICATION_ID, SCHEMA_VERSION};
 pub use store::Store;

@@ -6,8 +6,8 @@ use crate::error::StorageError;
 use crate::kinds::Series;
 use crate::rows::{
     AlertRow, CriticalOrigin, CriticalRow, EstimateRow, EventChannelRow, EventRow, GapRow,
-    HealthRow, IngestRow, MachineRow, OrderMapRow, Polar, ResonanceRow, SensorRow, SlowRoll,
-    Stored, TrendRow, VectorPoint, VectorTrace,
+    HealthRow, IngestRow, MachineRow, ModelRow, OrderMapRow, Polar, ResonanceRow, SensorRow,
+    SlowRoll, Stored, TrendRow, VectorPoint, VectorTrace,
 };
 use crate::tx::Tx;
 
@@ -78,6 +78,58 @@ fn event_row(r: &Row<'_>) -> rusqlite::Result<Stored<EventRow>> {
 
 const CRITICAL_COLS: &str = "id, machine, mode, origin, event_id, channel, speed_rpm, \
      amplification_factor, damping_ratio, valid_from";
+
+const ESTIMATE_COLS: &str = "id, critical_id, time, estimate_rpm, uncertainty_rpm, informative, \
+     speed_rpm, natural_rpm, speed_ratio, method, reason, change_kind, locus_residual, revolutions";
+
+fn estimate_row(r: &Row<'_>) -> rusqlite::Result<Stored<EstimateRow>> {
+    let revolutions: Option<i64> = r.get(13)?;
+    Ok(Stored {
+        id: r.get(0)?,
+        row: EstimateRow {
+            critical_id: r.get(1)?,
+            time: r.get(2)?,
+            estimate_rpm: r.get(3)?,
+            uncertainty_rpm: r.get(4)?,
+            informative: r.get(5)?,
+            speed_rpm: r.get(6)?,
+            natural_rpm: r.get(7)?,
+            speed_ratio: r.get(8)?,
+            method: r.get(9)?,
+            reason: r.get(10)?,
+            change: r.get(11)?,
+            locus_residual: r.get(12)?,
+            revolutions: revolutions.and_then(|n| u64::try_from(n).ok()),
+        },
+    })
+}
+
+const MODEL_COLS: &str = "critical_id, natural_rpm, damping_ratio, modal_amplitude, \
+     modal_phase_deg, background_amplitude, background_phase_deg, slow_roll_amplitude, \
+     slow_roll_phase_deg, fit_residual";
+
+fn model_row(r: &Row<'_>) -> rusqlite::Result<ModelRow> {
+    model_row_at(r, 0)
+}
+
+/// A model read from the columns starting at `at` (after the columns of a joined table).
+fn model_row_at(r: &Row<'_>, at: usize) -> rusqlite::Result<ModelRow> {
+    let polar = |i: usize| -> rusqlite::Result<Polar> {
+        Ok(Polar {
+            amplitude: r.get(at + i)?,
+            phase_deg: r.get(at + i + 1)?,
+        })
+    };
+    Ok(ModelRow {
+        critical_id: r.get(at)?,
+        natural_rpm: r.get(at + 1)?,
+        damping_ratio: r.get(at + 2)?,
+        modal: polar(3)?,
+        background: polar(5)?,
+        slow_roll: polar(7)?,
+        fit_residual: r.get(at + 9)?,
+    })
+}
 
 fn critical_row(r: &Row<'_>) -> rusqlite::Result<Stored<CriticalRow>> {
     let origin: String = r.get(3)?;
@@ -557,23 +609,103 @@ impl Tx<'_> {
 
     /// The live estimates of one critical-table row, by time.
     pub fn estimates(&self, critical_id: i64) -> Result<Vec<Stored<EstimateRow>>, StorageError> {
+        let sql = format!(
+            "SELECT {ESTIMATE_COLS} FROM critical_estimate WHERE critical_id = ?1 ORDER BY time, id"
+        );
         self.collect(
             "list critical-speed estimates",
-            "SELECT id, critical_id, time, estimate_rpm, uncertainty_rpm, informative
-             FROM critical_estimate WHERE critical_id = ?1 ORDER BY time, id",
+            &sql,
             [critical_id],
-            |r| {
-                Ok(Stored {
-                    id: r.get(0)?,
-                    row: EstimateRow {
-                        critical_id: r.get(1)?,
-                        time: r.get(2)?,
-                        estimate_rpm: r.get(3)?,
-                        uncertainty_rpm: r.get(4)?,
-                        informative: r.get(5)?,
-                    },
-                })
-            },
+            estimate_row,
         )
+    }
+
+    /// The live estimates of every critical of a machine with `from <= time < to`, by critical,
+    /// then time.
+    pub fn machine_estimates(
+        &self,
+        machine: &str,
+        from: f64,
+        to: f64,
+    ) -> Result<Vec<Stored<EstimateRow>>, StorageError> {
+        let cols = ESTIMATE_COLS
+            .split(", ")
+            .map(|c| format!("e.{c}"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let sql = format!(
+            "SELECT {cols} FROM critical_estimate e JOIN critical c ON c.id = e.critical_id
+             WHERE c.machine = ?1 AND e.time >= ?2 AND e.time < ?3
+             ORDER BY e.critical_id, e.time, e.id"
+        );
+        self.collect(
+            "list a machine's critical-speed estimates",
+            &sql,
+            params![machine, from, to],
+            estimate_row,
+        )
+    }
+
+    /// The model of one measured critical, if its event's fit gave one.
+    pub fn model(&self, critical_id: i64) -> Result<Option<ModelRow>, StorageError> {
+        const OP: &str = "read a critical's model";
+        let sql = format!("SELECT {MODEL_COLS} FROM critical_model WHERE critical_id = ?1");
+        self.conn
+            .prepare_cached(&sql)
+            .and_then(|mut st| st.query_row([critical_id], model_row).optional())
+            .map_err(self.sql(OP))
+    }
+
+    /// The models a machine's live estimates start from: for each channel and mode, the latest
+    /// measured critical that has a model, with that model, by channel then mode.
+    pub fn latest_models(
+        &self,
+        machine: &str,
+    ) -> Result<Vec<(Stored<CriticalRow>, ModelRow)>, StorageError> {
+        let ccols = CRITICAL_COLS
+            .split(", ")
+            .map(|c| format!("c.{c}"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let mcols = MODEL_COLS
+            .split(", ")
+            .map(|c| format!("m.{c}"))
+            .collect::<Vec<_>>()
+            .join(", ");
+        let sql = format!(
+            "SELECT {ccols}, {mcols} FROM critical c JOIN critical_model m ON m.critical_id = c.id
+             WHERE c.machine = ?1 AND c.id = (
+               SELECT c2.id FROM critical c2 JOIN critical_model m2 ON m2.critical_id = c2.id
+               WHERE c2.machine = c.machine AND c2.mode = c.mode
+                 AND c2.channel IS c.channel AND c2.origin = 'measured'
+               ORDER BY c2.valid_from DESC, c2.id DESC LIMIT 1)
+             ORDER BY c.channel, c.mode"
+        );
+        let n = CRITICAL_COLS.split(", ").count();
+        self.collect("read the latest critical models", &sql, [machine], |r| {
+            Ok((critical_row(r)?, model_row_at(r, n)?))
+        })
+    }
+
+    /// The id of the measured critical of `machine` found on `channel` as mode `mode` with
+    /// `valid_from` (the end of its event): how a live estimate finds the row it estimates.
+    pub fn measured_critical_id(
+        &self,
+        machine: &str,
+        channel: &str,
+        mode: u32,
+        valid_from: f64,
+    ) -> Result<Option<i64>, StorageError> {
+        const OP: &str = "find a measured critical";
+        self.conn
+            .prepare_cached(
+                "SELECT id FROM critical WHERE machine = ?1 AND channel = ?2 AND mode = ?3
+                   AND origin = 'measured' AND valid_from = ?4 ORDER BY id DESC LIMIT 1",
+            )
+            .and_then(|mut st| {
+                st.query_row(params![machine, channel, mode, valid_from], |r| r.get(0))
+                    .optional()
+            })
+            .map_err(self.sql(OP))
     }
 }

@@ -393,18 +393,58 @@ pub struct HealthRow {
 }
 
 /// A live estimate of a critical speed, from data that is not a full run-up or coast-down.
-#[derive(Clone, Debug, PartialEq)]
+///
+/// The fields after `informative` say how the estimate was made, so a reader can judge it without
+/// the data: they are `None` on rows written before they existed.
+#[derive(Clone, Debug, Default, PartialEq)]
 pub struct EstimateRow {
     /// The critical-table row being estimated.
     pub critical_id: i64,
-    /// Time of the estimate.
+    /// Time of the estimate (the middle of its window).
     pub time: f64,
-    /// Estimated critical speed, r/min.
+    /// Estimated critical speed (the 1X amplitude peak, as the critical-table rows are), r/min.
     pub estimate_rpm: f64,
     /// Uncertainty (one standard deviation), r/min.
     pub uncertainty_rpm: Option<f64>,
     /// Whether the data constrained the estimate at all (a flat speed gives no information).
     pub informative: bool,
+    /// Mean running speed over the window, r/min.
+    pub speed_rpm: Option<f64>,
+    /// Estimated natural speed of the mode (90° of lag), r/min.
+    pub natural_rpm: Option<f64>,
+    /// Running speed over natural speed.
+    pub speed_ratio: Option<f64>,
+    /// What the estimate rests on: `phase`, `phase-and-amplitude`, `slope` or `locus`.
+    pub method: Option<String>,
+    /// Why the estimate is not informative (`not-steady`, `outside-model`, `off-locus`,
+    /// `too-far-from-resonance`, `too-noisy`); `None` when it is.
+    pub reason: Option<String>,
+    /// What the window says changed since the model's event: `none`, `natural-speed`, `unbalance`.
+    pub change: Option<String>,
+    /// Distance of the window's vector from the model's locus, relative to the vector's size.
+    pub locus_residual: Option<f64>,
+    /// Revolutions averaged.
+    pub revolutions: Option<u64>,
+}
+
+/// The single-mode model of a measured critical, from its event's fit: what live estimates of
+/// that critical are made with, kept so that they can carry on after a restart.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ModelRow {
+    /// The critical-table row it models.
+    pub critical_id: i64,
+    /// Natural speed of the mode when it was fitted, r/min.
+    pub natural_rpm: f64,
+    /// Damping ratio.
+    pub damping_ratio: f64,
+    /// The mode's unbalance vector (its lag is the mode's lag well below the critical).
+    pub modal: Polar,
+    /// The fit's constant vector (residual runout, tails of other modes).
+    pub background: Polar,
+    /// The slow-roll vector subtracted before the fit.
+    pub slow_roll: Polar,
+    /// Rms of the fit's residual over its model's peak amplitude.
+    pub fit_residual: Option<f64>,
 }
 
 /// What a downsampling pass did.

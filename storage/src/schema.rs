@@ -13,7 +13,10 @@ use crate::error::StorageError;
 
 /// The migration scripts, oldest first. Script `i` takes the schema from version `i` to `i + 1`.
 /// Never edit a released script: add a new one.
-const MIGRATIONS: &[&str] = &[include_str!("migrations/0001_initial.sql")];
+const MIGRATIONS: &[&str] = &[
+    include_str!("migrations/0001_initial.sql"),
+    include_str!("migrations/0002_critical_tracking.sql"),
+];
 
 /// The schema version this code reads and writes.
 pub const SCHEMA_VERSION: i64 = MIGRATIONS.len() as i64;

@@ -9,8 +9,8 @@ use crate::error::StorageError;
 use crate::kinds::{IngestStatus, Series};
 use crate::rows::{
     AlertRow, CriticalRow, DownsampleStats, EstimateRow, EventRow, GapRow, HealthRow, IngestRow,
-    MachineRow, NewIngest, OrderMapRow, ResonanceRow, SensorRow, Stored, TrendRow, VectorPoint,
-    VectorTrace,
+    MachineRow, ModelRow, NewIngest, OrderMapRow, ResonanceRow, SensorRow, Stored, TrendRow,
+    VectorPoint, VectorTrace,
 };
 use crate::schema;
 use crate::tx::Tx;
@@ -445,5 +445,45 @@ impl Store {
     /// See [`Tx::estimates`].
     pub fn estimates(&self, critical_id: i64) -> Result<Vec<Stored<EstimateRow>>, StorageError> {
         self.view().estimates(critical_id)
+    }
+
+    /// See [`Tx::machine_estimates`].
+    pub fn machine_estimates(
+        &self,
+        machine: &str,
+        from: f64,
+        to: f64,
+    ) -> Result<Vec<Stored<EstimateRow>>, StorageError> {
+        self.view().machine_estimates(machine, from, to)
+    }
+
+    /// See [`Tx::model`].
+    pub fn model(&self, critical_id: i64) -> Result<Option<ModelRow>, StorageError> {
+        self.view().model(critical_id)
+    }
+
+    /// See [`Tx::latest_models`].
+    pub fn latest_models(
+        &self,
+        machine: &str,
+    ) -> Result<Vec<(Stored<CriticalRow>, ModelRow)>, StorageError> {
+        self.view().latest_models(machine)
+    }
+
+    /// See [`Tx::measured_critical_id`].
+    pub fn measured_critical_id(
+        &self,
+        machine: &str,
+        channel: &str,
+        mode: u32,
+        valid_from: f64,
+    ) -> Result<Option<i64>, StorageError> {
+        self.view()
+            .measured_critical_id(machine, channel, mode, valid_from)
+    }
+
+    /// Records the model of a measured critical (see [`Tx::insert_model`]).
+    pub fn insert_model(&mut self, m: &ModelRow) -> Result<(), StorageError> {
+        self.transaction(|tx| tx.insert_model(m))
     }
 }

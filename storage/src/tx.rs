@@ -8,7 +8,7 @@ use crate::error::StorageError;
 use crate::kinds::{AlertState, IngestStatus, Series};
 use crate::rows::{
     AlertRow, CriticalOrigin, CriticalRow, EstimateRow, EventRow, GapRow, HealthRow, MachineRow,
-    NewIngest, OrderMapRow, ResonanceRow, SensorRow, TrendRow, VectorPoint,
+    ModelRow, NewIngest, OrderMapRow, ResonanceRow, SensorRow, TrendRow, VectorPoint,
 };
 
 /// The typed operations on a database, bound to one connection.
@@ -502,10 +502,13 @@ impl<'a> Tx<'a> {
     /// Records a live critical-speed estimate. Returns its id.
     pub fn insert_estimate(&self, e: &EstimateRow) -> Result<i64, StorageError> {
         const OP: &str = "insert a critical-speed estimate";
+        let revolutions = e.revolutions.map(|n| i64::try_from(n).unwrap_or(i64::MAX));
         self.conn
             .prepare_cached(
                 "INSERT INTO critical_estimate (critical_id, time, estimate_rpm, uncertainty_rpm,
-                   informative) VALUES (?1, ?2, ?3, ?4, ?5)",
+                   informative, speed_rpm, natural_rpm, speed_ratio, method, reason, change_kind,
+                   locus_residual, revolutions)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13)",
             )
             .and_then(|mut st| {
                 st.execute(params![
@@ -513,10 +516,47 @@ impl<'a> Tx<'a> {
                     e.time,
                     e.estimate_rpm,
                     e.uncertainty_rpm,
-                    e.informative
+                    e.informative,
+                    e.speed_rpm,
+                    e.natural_rpm,
+                    e.speed_ratio,
+                    e.method,
+                    e.reason,
+                    e.change,
+                    e.locus_residual,
+                    revolutions
                 ])
             })
             .map_err(self.sql(OP))?;
         Ok(self.conn.last_insert_rowid())
+    }
+
+    /// Records the single-mode model of a measured critical (one per critical; a second model of
+    /// the same critical replaces the first).
+    pub fn insert_model(&self, m: &ModelRow) -> Result<(), StorageError> {
+        const OP: &str = "insert a critical's model";
+        self.conn
+            .prepare_cached(
+                "INSERT OR REPLACE INTO critical_model (critical_id, natural_rpm, damping_ratio,
+                   modal_amplitude, modal_phase_deg, background_amplitude, background_phase_deg,
+                   slow_roll_amplitude, slow_roll_phase_deg, fit_residual)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10)",
+            )
+            .and_then(|mut st| {
+                st.execute(params![
+                    m.critical_id,
+                    m.natural_rpm,
+                    m.damping_ratio,
+                    m.modal.amplitude,
+                    m.modal.phase_deg,
+                    m.background.amplitude,
+                    m.background.phase_deg,
+                    m.slow_roll.amplitude,
+                    m.slow_roll.phase_deg,
+                    m.fit_residual
+                ])
+            })
+            .map_err(self.sql(OP))?;
+        Ok(())
     }
 }

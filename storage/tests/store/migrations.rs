@@ -9,6 +9,7 @@ const TABLES: &[&str] = &[
     "alert",
     "critical",
     "critical_estimate",
+    "critical_model",
     "event",
     "event_channel",
     "gap",
@@ -51,6 +52,35 @@ fn migrates_an_empty_file_to_the_current_schema() {
     assert_eq!(mode, "wal");
     assert!(!store.is_read_only());
     assert_eq!(store.integrity_check().expect("check"), ["ok"]);
+}
+
+#[test]
+fn a_version_1_file_is_migrated_and_keeps_its_estimates() {
+    let db = Db::new();
+    {
+        let c = Connection::open(db.path()).expect("raw open");
+        c.execute_batch(include_str!("../../src/migrations/0001_initial.sql"))
+            .expect("version 1 schema");
+        c.pragma_update(None, "application_id", APPLICATION_ID)
+            .expect("marker");
+        c.pragma_update(None, "user_version", 1).expect("version");
+        c.execute_batch(
+            "INSERT INTO machine (id, name) VALUES ('fan-2', 'Fan 2');
+             INSERT INTO critical (machine, mode, origin, speed_rpm, valid_from)
+               VALUES ('fan-2', 1, 'design', 1210, 0);
+             INSERT INTO critical_estimate (critical_id, time, estimate_rpm, informative)
+               VALUES (1, 60, 1200, 1);",
+        )
+        .expect("version 1 rows");
+    }
+    let s = Store::open(db.path()).expect("migrate");
+    assert_eq!(pragma_i64(&db.path(), "user_version"), SCHEMA_VERSION);
+    assert_eq!(tables(&db.path()), TABLES);
+    let got = s.estimates(1).expect("estimates");
+    assert_eq!(got.len(), 1);
+    assert_eq!(got[0].row.estimate_rpm, 1200.0);
+    assert_eq!(got[0].row.method, None, "columns added later are empty");
+    assert_eq!(s.integrity_check().expect("check"), ["ok"]);
 }
 
 #[test]

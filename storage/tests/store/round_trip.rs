@@ -2,8 +2,8 @@
 
 use veer_storage::{
     AlertRow, AlertState, CriticalOrigin, CriticalRow, EstimateRow, GapRow, HealthRow, IngestKind,
-    IngestStatus, NewIngest, OrderMapRow, Polar, ResonanceRow, SensorRow, Series, Severity,
-    StorageError, TrendRow, VectorPoint,
+    IngestStatus, ModelRow, NewIngest, OrderMapRow, Polar, ResonanceRow, SensorRow, Series,
+    Severity, StorageError, TrendRow, VectorPoint,
 };
 
 use super::{event, machine, Db};
@@ -307,11 +307,20 @@ fn criticals_keep_their_history() {
         estimate_rpm: 1185.0,
         uncertainty_rpm: Some(12.5),
         informative: true,
+        speed_rpm: Some(1000.0),
+        natural_rpm: Some(1150.0),
+        speed_ratio: Some(1000.0 / 1150.0),
+        method: Some("phase-and-amplitude".into()),
+        reason: None,
+        change: Some("natural-speed".into()),
+        locus_residual: Some(0.004),
+        revolutions: Some(500),
     };
     let flat = EstimateRow {
         time: 660.0,
         uncertainty_rpm: None,
         informative: false,
+        reason: Some("too-far-from-resonance".into()),
         ..est.clone()
     };
     s.insert_estimate(&flat).expect("estimate");
@@ -329,6 +338,100 @@ fn criticals_keep_their_history() {
             ..est
         })
         .is_err());
+}
+
+#[test]
+fn critical_models_and_estimate_lookup() {
+    let db = Db::new();
+    let mut s = db.writer();
+    s.upsert_machine(&machine("fan-2")).expect("machine");
+    let ev = s.insert_event(&event("fan-2", 400.0)).expect("event");
+    let crit = |channel: &str, mode: u32, rpm: f64, valid_from: f64| CriticalRow {
+        machine: "fan-2".into(),
+        mode,
+        origin: CriticalOrigin::Measured { event_id: ev },
+        channel: Some(channel.into()),
+        speed_rpm: rpm,
+        amplification_factor: Some(5.0),
+        damping_ratio: Some(0.1),
+        valid_from,
+    };
+    let old_x = s.add_critical(&crit("x", 1, 1900.0, 500.0)).expect("x old");
+    let new_x = s.add_critical(&crit("x", 1, 1880.0, 900.0)).expect("x new");
+    let no_model = s
+        .add_critical(&crit("x", 1, 1870.0, 950.0))
+        .expect("x unfitted");
+    let y = s.add_critical(&crit("y", 1, 1885.0, 900.0)).expect("y");
+    let model = |critical_id: i64, natural_rpm: f64| ModelRow {
+        critical_id,
+        natural_rpm,
+        damping_ratio: 0.1,
+        modal: Polar {
+            amplitude: 40.0,
+            phase_deg: 30.0,
+        },
+        background: Polar {
+            amplitude: 0.5,
+            phase_deg: 200.0,
+        },
+        slow_roll: Polar {
+            amplitude: 3.0,
+            phase_deg: 10.0,
+        },
+        fit_residual: Some(0.01),
+    };
+    for (id, nn) in [(old_x, 1881.0), (new_x, 1861.0), (y, 1866.0)] {
+        s.insert_model(&model(id, nn)).expect("model");
+    }
+    assert_eq!(s.model(new_x).expect("read"), Some(model(new_x, 1861.0)));
+    assert_eq!(s.model(no_model).expect("read"), None);
+    // The latest critical of each channel and mode that has a model: a later critical without
+    // one does not hide it.
+    let latest = s.latest_models("fan-2").expect("latest");
+    let ids: Vec<(i64, i64)> = latest.iter().map(|(c, m)| (c.id, m.critical_id)).collect();
+    assert_eq!(ids, [(new_x, new_x), (y, y)]);
+    assert_eq!(
+        s.measured_critical_id("fan-2", "x", 1, 900.0)
+            .expect("find"),
+        Some(new_x)
+    );
+    assert_eq!(
+        s.measured_critical_id("fan-2", "x", 2, 900.0)
+            .expect("find"),
+        None
+    );
+    assert_eq!(
+        s.measured_critical_id("fan-2", "z", 1, 900.0)
+            .expect("find"),
+        None
+    );
+    let est = EstimateRow {
+        critical_id: y,
+        time: 1000.0,
+        estimate_rpm: 1850.0,
+        informative: true,
+        ..EstimateRow::default()
+    };
+    s.insert_estimate(&est).expect("estimate");
+    s.insert_estimate(&EstimateRow {
+        critical_id: new_x,
+        time: 1200.0,
+        ..est.clone()
+    })
+    .expect("estimate");
+    let window = s.machine_estimates("fan-2", 900.0, 1100.0).expect("window");
+    assert_eq!(window.len(), 1);
+    assert_eq!(window[0].row, est);
+    assert_eq!(
+        s.machine_estimates("fan-2", 0.0, 2000.0)
+            .expect("all")
+            .len(),
+        2
+    );
+    assert!(s
+        .machine_estimates("comp-3", 0.0, 2000.0)
+        .expect("other")
+        .is_empty());
 }
 
 #[test]

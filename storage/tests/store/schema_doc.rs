@@ -3,8 +3,8 @@
 
 use rusqlite::Connection;
 use veer_storage::{
-    AlertRow, CriticalOrigin, CriticalRow, Polar, ResonanceRow, Series, Severity, TrendRow,
-    VectorPoint,
+    AlertRow, CriticalOrigin, CriticalRow, EstimateRow, Polar, ResonanceRow, Series, Severity,
+    TrendRow, VectorPoint,
 };
 
 use super::{event, Db};
@@ -129,6 +129,22 @@ fn every_example_query_runs_and_finds_rows() {
         valid_from: now - 100.0,
     })
     .expect("critical");
+    let critical = s
+        .measured_critical_id("fan-2", "x", 1, now - 100.0)
+        .expect("lookup")
+        .expect("the measured critical");
+    s.insert_estimate(&EstimateRow {
+        critical_id: critical,
+        time: now - 60.0,
+        estimate_rpm: 1195.0,
+        uncertainty_rpm: Some(4.0),
+        informative: true,
+        speed_rpm: Some(1000.0),
+        method: Some("phase".into()),
+        change: Some("natural-speed".into()),
+        ..EstimateRow::default()
+    })
+    .expect("estimate");
     s.open_alert(&AlertRow {
         machine: "fan-2".into(),
         kind: "running-speed-margin".into(),
