@@ -96,6 +96,63 @@ pub enum DriftAlertEvent {
     },
 }
 
+/// A critical speed held to the required margin.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Bound {
+    /// The pessimistic critical speed judged, r/min.
+    pub critical_rpm: f64,
+    /// Side of the range it lies on.
+    pub side: Side,
+    /// Its margin to the range, percent.
+    pub actual_pct: f64,
+    /// The margin required, percent.
+    pub required_pct: f64,
+    /// Whether it is inside the range or closer than the required margin.
+    pub breach: bool,
+}
+
+/// One informative window judged against the margin.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Assessment {
+    /// The window's estimate of the critical speed, r/min.
+    pub critical_rpm: f64,
+    /// Its standard deviation, r/min.
+    pub sigma_rpm: f64,
+    /// The present estimate moved `sigmas` of its σ towards the range.
+    pub present: Bound,
+    /// The trend projected `horizon_s` ahead and moved `sigmas` of its σ towards the range (never
+    /// further from it than the present bound); `None` before three windows.
+    pub projected: Option<Bound>,
+    /// The trend's slope of the critical speed, r/min per s.
+    pub slope_rpm_per_s: Option<f64>,
+    /// How far ahead the projection looks, s.
+    pub horizon_s: f64,
+    /// How many standard deviations the bounds lie towards the range.
+    pub sigmas: f64,
+}
+
+impl Assessment {
+    /// The projection when there is one (it is never further from the range than the present
+    /// bound), else the present bound.
+    pub fn worst(&self) -> Bound {
+        self.projected.unwrap_or(self.present)
+    }
+}
+
+/// What one window says, for the alert.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Judgement {
+    /// The window left the model's locus: an unbalance change.
+    VectorChange {
+        /// Its locus residual.
+        locus_residual: f64,
+    },
+    /// The window says nothing about the critical.
+    NotInformative,
+    /// The window's estimate held to the margin.
+    Assessed(Assessment),
+}
+
 /// The alert rule for one critical.
 #[derive(Clone, Debug)]
 pub struct DriftAlert {
@@ -112,10 +169,24 @@ pub struct DriftAlert {
 impl DriftAlert {
     /// The rule for the critical of `model`; refuses an invalid configuration.
     pub fn new(cfg: DriftAlertConfig, model: &CriticalModel) -> Result<Self, DriftError> {
+        Self::with_critical_factor(cfg, model.critical_rpm(1.0))
+    }
+
+    /// The rule with the critical speed taken as `factor` times the natural speed: the ratio of
+    /// the critical as its event measured it (the amplitude peak) to the fitted natural speed, so
+    /// that an estimate with no drift reads the event's own figure.
+    pub fn with_critical_factor(cfg: DriftAlertConfig, factor: f64) -> Result<Self, DriftError> {
         cfg.validate()?;
+        if !(factor.is_finite() && factor > 0.0) {
+            return Err(DriftError::InvalidConfig {
+                field: "critical_factor",
+                value: factor,
+                reason: "must be positive and finite",
+            });
+        }
         Ok(Self {
             cfg,
-            peak_factor: model.critical_rpm(1.0),
+            peak_factor: factor,
             history: VecDeque::new(),
             approach_run: 0,
             clear_run: 0,
@@ -125,15 +196,16 @@ impl DriftAlert {
         })
     }
 
-    /// The pessimistic natural speed to hold to the margin: the latest estimate or, from three
-    /// windows on, the projected trend, whichever is closer to the range; `None` with no history.
-    fn bound(&self, toward_lower: bool) -> Option<f64> {
+    /// The natural speed to hold to the margin now (the latest estimate moved `sigmas` of its σ
+    /// towards the range) and, from three windows on, the trend's projection to the horizon moved
+    /// `sigmas` of the projection's σ, with the trend's slope (r/min per s); `None` with no history.
+    fn bounds(&self, toward_lower: bool) -> Option<(f64, Option<(f64, f64)>)> {
         let &(t_now, nn_now, s_now) = self.history.back()?;
         let k = self.cfg.sigmas;
         let sign = if toward_lower { -1.0 } else { 1.0 };
         let present = nn_now + sign * k * s_now;
         if self.history.len() < 3 {
-            return Some(present);
+            return Some((present, None));
         }
         let (mut sw, mut st, mut sn) = (0.0, 0.0, 0.0);
         for &(t, nn, s) in &self.history {
@@ -150,7 +222,7 @@ impl DriftAlert {
             stn += w * (t - tm) * (nn - nm);
         }
         if !(stt > 0.0) {
-            return Some(present);
+            return Some((present, None));
         }
         let slope = stn / stt;
         let mut chi2 = 0.0;
@@ -162,36 +234,19 @@ impl DriftAlert {
         let tp = t_now + self.cfg.horizon_s;
         let pred = nm + slope * (tp - tm);
         let sigma = ((1.0 / sw + (tp - tm).powi(2) / stt) * scale).sqrt();
-        let projected = pred + sign * k * sigma;
-        // Only a trend towards the range counts; a trend away leaves the present bound.
-        Some(if toward_lower {
-            present.min(projected)
-        } else {
-            present.max(projected)
-        })
+        Some((present, Some((pred + sign * k * sigma, slope))))
     }
 
-    /// Takes one window's estimate; returns an alert when one is raised. Each alert is raised once
-    /// and re-armed after `persistence` windows without its condition.
-    pub fn update(&mut self, e: &Estimate) -> Option<DriftAlertEvent> {
-        let persistence = self.cfg.persistence.max(1);
+    /// Takes one window's estimate and judges it, without the persistence of [`Self::update`]:
+    /// for callers that debounce alerts themselves.
+    pub fn judge(&mut self, e: &Estimate) -> Judgement {
         if e.change == Change::Unbalance {
-            self.vector_run += 1;
-            if self.vector_run >= persistence && !self.vector_raised {
-                self.vector_raised = true;
-                return Some(DriftAlertEvent::VectorChange {
-                    time_s: e.time_s,
-                    locus_residual: e.locus_residual,
-                });
-            }
-            return None;
-        }
-        if self.vector_run > 0 {
-            self.vector_run = 0;
-            self.vector_raised = false;
+            return Judgement::VectorChange {
+                locus_residual: e.locus_residual,
+            };
         }
         if !e.informative {
-            return None;
+            return Judgement::NotInformative;
         }
         self.history
             .push_back((e.time_s, e.natural_rpm, e.sigma_rpm));
@@ -205,12 +260,68 @@ impl DriftAlert {
         let range = &self.cfg.range;
         let (side_now, _) = actual_margin_pct(e.natural_rpm * self.peak_factor, range);
         let toward_lower = side_now != Side::Below;
-        let nn = self.bound(toward_lower)?;
-        let critical_rpm = nn * self.peak_factor;
-        let (side, actual_pct) = actual_margin_pct(critical_rpm, range);
-        let required_pct = required_margin_pct(self.cfg.rule, self.cfg.af, side);
-        let breach = side == Side::Inside || actual_pct < required_pct;
-        if breach {
+        let Some((present, projected)) = self.bounds(toward_lower) else {
+            return Judgement::NotInformative;
+        };
+        let judge = |nn: f64| {
+            let critical_rpm = nn * self.peak_factor;
+            let (side, actual_pct) = actual_margin_pct(critical_rpm, range);
+            let required_pct = required_margin_pct(self.cfg.rule, self.cfg.af, side);
+            Bound {
+                critical_rpm,
+                side,
+                actual_pct,
+                required_pct,
+                breach: side == Side::Inside || actual_pct < required_pct,
+            }
+        };
+        // Only a trend towards the range counts; a trend away leaves the present bound.
+        let projected = projected.map(|(nn, slope)| {
+            let closer = if toward_lower {
+                nn < present
+            } else {
+                nn > present
+            };
+            (judge(if closer { nn } else { present }), slope)
+        });
+        Judgement::Assessed(Assessment {
+            critical_rpm: e.natural_rpm * self.peak_factor,
+            sigma_rpm: e.sigma_rpm * self.peak_factor,
+            present: judge(present),
+            projected: projected.map(|p| p.0),
+            slope_rpm_per_s: projected.map(|p| p.1 * self.peak_factor),
+            horizon_s: self.cfg.horizon_s,
+            sigmas: self.cfg.sigmas,
+        })
+    }
+
+    /// Takes one window's estimate; returns an alert when one is raised. Each alert is raised once
+    /// and re-armed after `persistence` windows without its condition.
+    pub fn update(&mut self, e: &Estimate) -> Option<DriftAlertEvent> {
+        let persistence = self.cfg.persistence.max(1);
+        let a = match self.judge(e) {
+            Judgement::VectorChange { locus_residual } => {
+                self.vector_run += 1;
+                if self.vector_run >= persistence && !self.vector_raised {
+                    self.vector_raised = true;
+                    return Some(DriftAlertEvent::VectorChange {
+                        time_s: e.time_s,
+                        locus_residual,
+                    });
+                }
+                return None;
+            }
+            Judgement::NotInformative => {
+                self.vector_run = 0;
+                self.vector_raised = false;
+                return None;
+            }
+            Judgement::Assessed(a) => a,
+        };
+        self.vector_run = 0;
+        self.vector_raised = false;
+        let worst = a.worst();
+        if worst.breach {
             self.approach_run += 1;
             self.clear_run = 0;
         } else {
@@ -220,14 +331,14 @@ impl DriftAlert {
                 self.approach_raised = false;
             }
         }
-        if breach && self.approach_run >= persistence && !self.approach_raised {
+        if worst.breach && self.approach_run >= persistence && !self.approach_raised {
             self.approach_raised = true;
             return Some(DriftAlertEvent::CriticalApproach {
                 time_s: e.time_s,
-                critical_rpm,
-                actual_pct,
-                required_pct,
-                side,
+                critical_rpm: worst.critical_rpm,
+                actual_pct: worst.actual_pct,
+                required_pct: worst.required_pct,
+                side: worst.side,
             });
         }
         None

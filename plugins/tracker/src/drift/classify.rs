@@ -22,6 +22,17 @@ pub enum Change {
     Unbalance,
 }
 
+impl Change {
+    /// The name as stored and printed.
+    pub fn name(self) -> &'static str {
+        match self {
+            Change::None => "none",
+            Change::NaturalSpeed => "natural-speed",
+            Change::Unbalance => "unbalance",
+        }
+    }
+}
+
 /// Thresholds of the classification.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ClassifyConfig {

@@ -156,6 +156,18 @@ pub enum Method {
     Locus,
 }
 
+impl Method {
+    /// The name as stored and printed.
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Phase => "phase",
+            Method::PhaseAndAmplitude => "phase-and-amplitude",
+            Method::Slope => "slope",
+            Method::Locus => "locus",
+        }
+    }
+}
+
 /// Why an estimate is not to be acted on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum NotInformative {
@@ -169,6 +181,19 @@ pub enum NotInformative {
     TooFarFromResonance,
     /// The uncertainty is larger than the configured limit.
     TooNoisy,
+}
+
+impl NotInformative {
+    /// The name as stored and printed.
+    pub fn name(self) -> &'static str {
+        match self {
+            NotInformative::NotSteady => "not-steady",
+            NotInformative::OutsideModel => "outside-model",
+            NotInformative::OffLocus => "off-locus",
+            NotInformative::TooFarFromResonance => "too-far-from-resonance",
+            NotInformative::TooNoisy => "too-noisy",
+        }
+    }
 }
 
 /// One window's estimate of the natural speed.

@@ -32,7 +32,7 @@ pub mod slope;
 #[cfg(test)]
 mod tests;
 
-pub use alert::{DriftAlert, DriftAlertConfig, DriftAlertEvent};
+pub use alert::{Assessment, Bound, DriftAlert, DriftAlertConfig, DriftAlertEvent, Judgement};
 pub use classify::{Change, ClassifyConfig};
 pub use estimate::{Estimate, Estimator, EstimatorConfig, Method, NotInformative};
 pub use model::CriticalModel;
