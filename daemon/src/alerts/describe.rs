@@ -3,6 +3,7 @@
 //! nothing.
 
 use super::drift::DriftFinding;
+use super::estimate::{ApproachFinding, VectorChangeFinding};
 use super::level::LevelFinding;
 use super::margin::MarginFinding;
 use super::shift::ShiftFinding;
@@ -64,6 +65,30 @@ impl Describe for ShiftFinding {
     }
     fn evidence(&self) -> Value {
         ShiftFinding::evidence(self)
+    }
+}
+
+impl Describe for ApproachFinding {
+    fn message(&self, severity: Severity) -> String {
+        ApproachFinding::message(self, severity)
+    }
+    fn cleared(&self) -> String {
+        ApproachFinding::cleared(self)
+    }
+    fn evidence(&self) -> Value {
+        ApproachFinding::evidence(self)
+    }
+}
+
+impl Describe for VectorChangeFinding {
+    fn message(&self, _: Severity) -> String {
+        VectorChangeFinding::message(self)
+    }
+    fn cleared(&self) -> String {
+        VectorChangeFinding::cleared(self)
+    }
+    fn evidence(&self) -> Value {
+        VectorChangeFinding::evidence(self)
     }
 }
 

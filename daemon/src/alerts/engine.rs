@@ -3,6 +3,7 @@
 use super::debounce::{Debounce, Step};
 use super::describe::{Describe, Note};
 use super::drift::{self, DriftFinding};
+use super::estimate::{ApproachFinding, VectorChangeFinding};
 use super::health::{self, ChannelHealth, Role};
 use super::level::{multiplier_applies, LevelFinding, Levels};
 use super::margin::MarginFinding;
@@ -12,6 +13,7 @@ use super::{Alert, AlertChange, AlertKind, HealthProblem, KnownCritical};
 use crate::config::model::{Alerts, Severity};
 use serde_json::json;
 use std::collections::{BTreeMap, HashMap};
+use veer_tracker::drift::{DriftAlert, DriftAlertConfig, Estimate, Judgement};
 use veer_tracker::margin::{MarginRule, OperatingRange};
 use veer_tracker::states::MachineState;
 
@@ -33,6 +35,8 @@ struct Settings {
     hysteresis_pct: f64,
     shift_pct: f64,
     startup_multiplier: f64,
+    estimate_trend_min: f64,
+    estimate_sigmas: f64,
 }
 
 /// The alert rules of one machine, fed with data-time stamped inputs.
@@ -53,6 +57,8 @@ pub(crate) struct AlertEngine {
     health: HashMap<String, ChannelHealth>,
     pending: Vec<AlertChange>,
     last_time_s: f64,
+    /// The estimate rule of each tracked critical, by key (`channel:mode`).
+    estimates: HashMap<String, DriftAlert>,
 }
 
 impl AlertEngine {
@@ -81,6 +87,8 @@ impl AlertEngine {
             } else {
                 1.0
             },
+            estimate_trend_min: finite_or(alerts.estimate_trend_min, 60.0).max(1.0),
+            estimate_sigmas: finite_or(alerts.estimate_sigmas, 2.0).max(0.0),
         };
         let sensors = sensors
             .iter()
@@ -106,7 +114,110 @@ impl AlertEngine {
             health: HashMap::new(),
             pending: Vec::new(),
             last_time_s: f64::NEG_INFINITY,
+            estimates: HashMap::new(),
         }
+    }
+
+    /// Starts the estimate rule of a tracked critical `key`, or restarts it with a new model
+    /// (after a new event): its trend starts afresh, and a vector-change alert of the old model
+    /// is cleared, since the new model is fitted on the vector as it now is. `critical_factor` is
+    /// the measured critical over the fitted natural speed.
+    pub fn track_critical(&mut self, key: &str, critical_factor: f64, af: Option<f64>) {
+        let s = self.settings;
+        let cfg = DriftAlertConfig {
+            range: self.range,
+            rule: s.rule,
+            af,
+            horizon_s: s.horizon_min * 60.0,
+            trend_window_s: s.estimate_trend_min * 60.0,
+            sigmas: s.estimate_sigmas,
+            persistence: 1,
+        };
+        match DriftAlert::with_critical_factor(cfg, critical_factor) {
+            Ok(rule) => {
+                self.estimates.insert(key.to_string(), rule);
+            }
+            Err(e) => {
+                tracing::warn!(machine = %self.machine, critical = key, error = %e, "critical not estimated");
+                self.estimates.remove(key);
+            }
+        }
+        if self.is_open(AlertKind::VectorChange, key) {
+            let note = super::describe::Note {
+                message: format!(
+                    "cleared: a new run-up or coast-down refitted the model of critical {key}"
+                ),
+                evidence: json!({ "key": key, "refitted": true }),
+            };
+            let t = self.last_time_s;
+            if let Some(change) = self.force_clear(AlertKind::VectorChange, key, t, &note) {
+                self.pending.push(change);
+            }
+        }
+    }
+
+    /// One window's live estimate of tracked critical `key` (measured at `measured_rpm` with
+    /// `af` by its event), with what the event's model predicts at the window's speed, for the
+    /// vector-change evidence.
+    pub fn on_estimate(
+        &mut self,
+        key: &str,
+        channel: &str,
+        measured_rpm: f64,
+        af: Option<f64>,
+        e: &Estimate,
+        expected: veer_tracker::Complex64,
+    ) -> Vec<AlertChange> {
+        let mut out = self.begin(e.time_s);
+        if self.suspended(channel) || self.tach_suspended() {
+            return out;
+        }
+        let Some(rule) = self.estimates.get_mut(key) else {
+            return out;
+        };
+        let judgement = rule.judge(e);
+        let s = self.settings;
+        let vc = VectorChangeFinding {
+            key: key.to_string(),
+            speed_rpm: e.rpm,
+            locus_residual: Some(e.locus_residual),
+            vector: Some((e.vector.norm(), veer_tracker::lag_deg(e.vector))),
+            expected: Some((expected.norm(), veer_tracker::lag_deg(expected))),
+        };
+        match judgement {
+            Judgement::VectorChange { .. } => {
+                out.extend(self.judge(
+                    AlertKind::VectorChange,
+                    key,
+                    e.time_s,
+                    Some(Severity::Warning),
+                    false,
+                    &vc,
+                ));
+            }
+            Judgement::NotInformative => {}
+            Judgement::Assessed(a) => {
+                out.extend(self.judge(AlertKind::VectorChange, key, e.time_s, None, true, &vc));
+                let f = ApproachFinding {
+                    key: key.to_string(),
+                    measured_rpm,
+                    af,
+                    speed_rpm: e.rpm,
+                    a,
+                    rule: s.rule.name(),
+                    hysteresis_pct: s.hysteresis_pct,
+                };
+                out.extend(self.judge(
+                    AlertKind::CriticalApproach,
+                    key,
+                    e.time_s,
+                    f.raw(),
+                    f.recovered(),
+                    &f,
+                ));
+            }
+        }
+        out
     }
 
     /// Replaces the known criticals (a measured critical added, a baseline updated).

@@ -11,6 +11,10 @@
 //!   margin required around the operating range;
 //! - [`level`]: 1X amplitude above a sensor's warning or alarm level, with the start-up multiplier
 //!   while a run-up or coast-down passes its criticals (API 670 Annex I);
+//! - [`estimate`]: the live estimate of a measured critical, from the 1X vector at steady speed,
+//!   held (with its uncertainty, and projected over the drift horizon) to the required margin
+//!   (critical approach); a 1X vector that leaves the critical's model is a vector change, never
+//!   a critical shift;
 //! - [`health`]: lost tach, flat line, clipping, non-finite samples, stream gaps. A rule does not
 //!   compute from a channel while it is unhealthy: an alert from bad data is worse than none.
 //!
@@ -29,6 +33,7 @@ mod debounce;
 mod describe;
 mod drift;
 mod engine;
+mod estimate;
 mod health;
 mod level;
 mod margin;
@@ -76,6 +81,10 @@ pub(crate) enum AlertKind {
     Level1x,
     /// A channel's data cannot be trusted.
     SensorHealth,
+    /// A critical's live estimate is, or is projected to be, inside its required margin.
+    CriticalApproach,
+    /// The 1X vector left a critical's model: an unbalance change.
+    VectorChange,
 }
 
 impl AlertKind {
@@ -87,6 +96,8 @@ impl AlertKind {
             AlertKind::CriticalShift => "critical-shift",
             AlertKind::Level1x => "level-1x",
             AlertKind::SensorHealth => "sensor-health",
+            AlertKind::CriticalApproach => "critical-approach",
+            AlertKind::VectorChange => "vector-change",
         }
     }
 }

@@ -41,6 +41,10 @@ fn settings() -> Alerts {
         hysteresis_pct: 1.0,
         critical_shift_pct: 5.0,
         startup_multiplier: 2.0,
+        estimate_critical: true,
+        estimate_window_s: 30.0,
+        estimate_trend_min: 60.0,
+        estimate_sigmas: 2.0,
         outputs: Vec::new(),
     }
 }
@@ -772,4 +776,116 @@ async fn command_failures_are_reported_not_fatal() {
     assert!(errors[1].contains("pager unreachable"), "{}", errors[1]);
     assert!(errors[2].contains("cannot start"), "{}", errors[2]);
     assert!(errors[3].contains("empty"), "{}", errors[3]);
+}
+
+/// One window's estimate of a critical with natural speed `nn` (σ `sigma`) at 2500 r/min.
+fn window(
+    t: f64,
+    nn: f64,
+    sigma: f64,
+    change: veer_tracker::drift::Change,
+) -> veer_tracker::drift::Estimate {
+    use veer_tracker::drift::{Change, Estimate, Method, NotInformative};
+    let off = change == Change::Unbalance;
+    Estimate {
+        time_s: t,
+        rpm: 2500.0,
+        revolutions: 1250,
+        natural_rpm: nn,
+        sigma_rpm: sigma,
+        ratio: 2500.0 / nn,
+        informative: !off,
+        reason: off.then_some(NotInformative::OffLocus),
+        method: Method::Phase,
+        by_phase: Some(nn),
+        by_amplitude: None,
+        sensitivity_deg_per_pct: 1.0,
+        locus_residual: if off { 0.4 } else { 0.002 },
+        change,
+        vector: veer_tracker::Complex64::new(30.0, -20.0),
+    }
+}
+
+#[test]
+fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_change_does_neither() {
+    use veer_tracker::drift::Change;
+    let s = settings();
+    let mut e = engine_with(&s);
+    e.track_critical("x:1", 1.0, Some(AF));
+    // Required above the range: 24.4 % for AF 8 (recomputed); the critical enters it at
+    // 3000 × 1.244 = 3731 r/min.
+    let boundary = 3000.0 * (1.0 + required_above(AF) / 100.0);
+    let sigma = 10.0;
+    // Natural speed falling 200 r/min per hour from 4200 r/min; a window every 30 s.
+    let truth = |t: f64| 4200.0 - 200.0 * t / 3600.0;
+    let mut changes = Vec::new();
+    let mut t = 0.0;
+    while t < 4.0 * 3600.0 {
+        let est = window(T0 + t, truth(t), sigma, Change::NaturalSpeed);
+        changes.extend(e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector));
+        t += 30.0;
+    }
+    let approach = of_kind(&changes, AlertKind::CriticalApproach);
+    let raised: Vec<&Alert> = approach
+        .iter()
+        .filter(|c| matches!(c, AlertChange::Raised(_)))
+        .map(|c| c.alert())
+        .collect();
+    assert_eq!(raised.len(), 1, "{approach:?}");
+    let warn = raised[0];
+    assert_eq!(warn.severity, Severity::Warning, "{}", warn.message);
+    let crossing = (4200.0 - boundary) / 200.0 * 3600.0;
+    let lead = T0 + crossing - warn.time_s;
+    // The projection looks 30 min ahead and is moved 2 σ towards the range: it must warn at
+    // least the horizon before the truth crosses, but not hours early.
+    assert!(
+        (30.0 * 60.0..60.0 * 60.0).contains(&lead),
+        "warned {lead} s ahead"
+    );
+    let alarm: Vec<&Alert> = approach
+        .iter()
+        .filter(|c| matches!(c, AlertChange::Escalated(_)))
+        .map(|c| c.alert())
+        .collect();
+    assert_eq!(alarm.len(), 1);
+    // The present bound (estimate − 2σ) enters the margin 2σ before the truth does.
+    let present_crossing = (4200.0 - boundary - 2.0 * sigma) / 200.0 * 3600.0;
+    let at = alarm[0].time_s - T0;
+    assert!(
+        at >= present_crossing && at <= present_crossing + 120.0 && at < crossing,
+        "alarm at {at} s, present bound crosses at {present_crossing} s, truth at {crossing} s"
+    );
+    assert!(alarm[0].evidence["present"]["breach"].as_bool() == Some(true));
+    assert!(of_kind(&changes, AlertKind::VectorChange).is_empty());
+
+    // The same critical unmoved, with the unbalance turned: vector change, no approach.
+    let mut e = engine_with(&s);
+    e.track_critical("x:1", 1.0, Some(AF));
+    let mut changes = Vec::new();
+    for i in 0..200 {
+        let t = f64::from(i) * 30.0;
+        let change = if i < 100 {
+            Change::None
+        } else {
+            Change::Unbalance
+        };
+        let est = window(T0 + t, 4200.0, sigma, change);
+        changes.extend(e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector));
+    }
+    assert!(of_kind(&changes, AlertKind::CriticalApproach).is_empty());
+    assert!(of_kind(&changes, AlertKind::CriticalShift).is_empty());
+    let vc = of_kind(&changes, AlertKind::VectorChange);
+    assert_eq!(vc.len(), 1, "{vc:?}");
+    assert!(matches!(vc[0], AlertChange::Raised(_)));
+    assert!(vc[0].alert().time_s >= T0 + 100.0 * 30.0);
+    assert!(vc[0].alert().message.contains("not a critical shift"));
+    // A new run-up refits the model: the vector change clears with the next input.
+    e.track_critical("x:1", 1.0, Some(AF));
+    let est = window(T0 + 6000.0, 4200.0, sigma, Change::None);
+    let after = e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector);
+    let cleared = of_kind(&after, AlertKind::VectorChange);
+    assert!(
+        matches!(cleared.as_slice(), [AlertChange::Cleared(_)]),
+        "{after:?}"
+    );
 }

@@ -62,6 +62,27 @@ pub(super) fn alerts(c: &Checker, k: &KeyPath, a: RawAlerts) -> Result<Alerts> {
         10.0,
         "must be between 1 (off) and 10",
     )?;
+    c.within(
+        &k.key("estimate_window_s"),
+        a.estimate_window_s,
+        1.0,
+        3600.0,
+        "must be between 1 and 3600 s",
+    )?;
+    c.above(
+        &k.key("estimate_trend_min"),
+        a.estimate_trend_min,
+        0.0,
+        525_600.0,
+        "must be a positive number of minutes",
+    )?;
+    c.within(
+        &k.key("estimate_sigmas"),
+        a.estimate_sigmas,
+        0.0,
+        6.0,
+        "must be between 0 and 6 standard deviations",
+    )?;
     if a.outputs.is_empty() {
         return Err(c.bad(
             &k.key("outputs"),
@@ -81,6 +102,10 @@ pub(super) fn alerts(c: &Checker, k: &KeyPath, a: RawAlerts) -> Result<Alerts> {
         hysteresis_pct: a.hysteresis_pct,
         critical_shift_pct: a.critical_shift_pct,
         startup_multiplier: a.startup_multiplier,
+        estimate_critical: a.estimate_critical,
+        estimate_window_s: a.estimate_window_s,
+        estimate_trend_min: a.estimate_trend_min,
+        estimate_sigmas: a.estimate_sigmas,
         outputs,
     })
 }

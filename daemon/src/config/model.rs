@@ -296,6 +296,15 @@ pub(crate) struct Alerts {
     /// Factor on the 1X warning and alarm levels while the machine speeds up or slows down below
     /// its minimum operating speed, i.e. while it passes its criticals (1: no change).
     pub startup_multiplier: f64,
+    /// Estimate each measured critical at steady speed from the 1X vector, between run-ups.
+    pub estimate_critical: bool,
+    /// Length of one estimate's averaging window, s.
+    pub estimate_window_s: f64,
+    /// History the estimated critical's trend is fitted over, minutes.
+    pub estimate_trend_min: f64,
+    /// Standard deviations by which an estimate is moved towards the range before it is held to
+    /// the margin.
+    pub estimate_sigmas: f64,
     /// Where alerts go.
     pub outputs: Vec<Output>,
 }

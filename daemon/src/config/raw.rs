@@ -344,6 +344,10 @@ pub(super) struct RawAlerts {
     pub hysteresis_pct: f64,
     pub critical_shift_pct: f64,
     pub startup_multiplier: f64,
+    pub estimate_critical: bool,
+    pub estimate_window_s: f64,
+    pub estimate_trend_min: f64,
+    pub estimate_sigmas: f64,
     pub outputs: Vec<RawOutput>,
 }
 
@@ -360,6 +364,14 @@ impl Default for RawAlerts {
             // API 670 Annex I: setpoints raised, usually 2× or 3×, while criticals are passed
             // (REFERENCES §1.4, confirmed from trade sources); the lower of the two.
             startup_multiplier: 2.0,
+            estimate_critical: true,
+            // Some 700 revolutions at 1450 r/min: the phase noise of one window is averaged down
+            // by √700 while a drift over hours moves the critical by a few r/min at most.
+            estimate_window_s: 30.0,
+            estimate_trend_min: 60.0,
+            // Two standard deviations towards the range: about 2.3 % of windows would read the
+            // critical closer than it is by noise alone (normal distribution, one-sided).
+            estimate_sigmas: 2.0,
             outputs: vec![RawOutput {
                 kind: RawOutputKind::Log,
                 path: None,

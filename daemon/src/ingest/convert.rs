@@ -42,6 +42,8 @@ pub(crate) struct EventRecord {
     pub resonances: Vec<ResonanceRow>,
     /// Measured criticals (event id filled in by the writer).
     pub criticals: Vec<CriticalRow>,
+    /// The models of the criticals whose fit was good, stored beside their critical rows.
+    pub models: Vec<super::models::TrackedModel>,
 }
 
 /// Converts a finished engine event of `machine` into rows.
@@ -149,5 +151,6 @@ pub(crate) fn event_record(machine: &str, ev: &Event, t0_unix: f64) -> EventReco
         order_map,
         resonances,
         criticals,
+        models: super::models::models_of(ev, t0_unix),
     }
 }

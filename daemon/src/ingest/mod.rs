@@ -2,5 +2,6 @@
 
 pub(crate) mod convert;
 pub(crate) mod health;
+pub(crate) mod models;
 pub(crate) mod runner;
 pub(crate) mod types;

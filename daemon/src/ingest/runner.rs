@@ -7,6 +7,7 @@
 
 use super::convert::{event_record, polar, EventRecord};
 use super::health::{ChannelHealth, Condition};
+use super::models::{TrackedModel, Tracker};
 use crate::config::model::Machine;
 use anyhow::{anyhow, Result};
 use veer_storage::TrendRow;
@@ -40,6 +41,11 @@ pub(crate) enum Observation {
         time_s: f64,
         channel: String,
         condition: Option<Condition>,
+    },
+    /// One window's live estimate of a tracked critical, at steady speed.
+    Estimate {
+        tracked: Box<TrackedModel>,
+        estimate: veer_tracker::drift::Estimate,
     },
     /// A machine-state change.
     State {
@@ -100,15 +106,21 @@ pub(crate) struct Runner {
     tach_lost: bool,
     last_time: f64,
     fs: f64,
+    /// Live estimators of the measured criticals (empty when the machine's configuration turns
+    /// estimates off).
+    trackers: Vec<Tracker>,
+    estimate_window_s: Option<f64>,
 }
 
 impl Runner {
-    /// A runner for `machine` on samples at `sample_rate` Hz whose first frame is at `t0_unix`.
+    /// A runner for `machine` on samples at `sample_rate` Hz whose first frame is at `t0_unix`,
+    /// estimating the criticals of `models` (and of the events it finds) at steady speed.
     pub(crate) fn new(
         machine: &Machine,
         sample_rate: f64,
         t0_unix: f64,
         trend_interval_s: f64,
+        models: &[TrackedModel],
     ) -> Result<Self> {
         let cfg = machine.engine_config().map_err(|e| anyhow!("{e}"))?;
         let orders = cfg.vectors.orders.clone();
@@ -116,7 +128,11 @@ impl Runner {
         let mut engine = Engine::new(cfg, sample_rate, 0.0).map_err(|e| anyhow!("{e}"))?;
         engine.set_emit_revolutions(true);
         let window = sample_rate.round() as usize;
-        Ok(Self {
+        let estimate_window_s = machine
+            .alerts
+            .estimate_critical
+            .then_some(machine.alerts.estimate_window_s);
+        let mut runner = Self {
             machine: machine.id.clone(),
             health: channels
                 .iter()
@@ -137,7 +153,29 @@ impl Runner {
             tach_lost: false,
             last_time: t0_unix,
             fs: sample_rate,
-        })
+            trackers: Vec::new(),
+            estimate_window_s,
+        };
+        runner.track(models);
+        Ok(runner)
+    }
+
+    /// Starts (or restarts) the estimators of `models`, each replacing the tracker of its channel
+    /// and mode; models of channels this runner does not have are left out.
+    fn track(&mut self, models: &[TrackedModel]) {
+        let Some(window_s) = self.estimate_window_s else {
+            return;
+        };
+        for m in models {
+            let Some(c) = self.channels.iter().position(|n| *n == m.channel) else {
+                continue;
+            };
+            self.trackers
+                .retain(|t| !(t.tracked.channel == m.channel && t.tracked.mode == m.mode));
+            if let Some(t) = Tracker::new(m.clone(), c, window_s) {
+                self.trackers.push(t);
+            }
+        }
     }
 
     /// Unix time of the last sample seen.
@@ -203,11 +241,9 @@ impl Runner {
                     });
                 }
                 Update::Event(e) => {
-                    out.push(Observation::Event(Box::new(event_record(
-                        &self.machine,
-                        &e,
-                        self.t0_unix,
-                    ))));
+                    let rec = event_record(&self.machine, &e, self.t0_unix);
+                    self.track(&rec.models);
+                    out.push(Observation::Event(Box::new(rec)));
                 }
                 Update::TachLost(t) => {
                     // Pulses that stop while the machine was running fast is a lost tach; pulses
@@ -227,6 +263,7 @@ impl Runner {
                     self.trend_start = None;
                     self.second = Mean::default();
                     self.second_start = None;
+                    self.trackers.iter_mut().for_each(Tracker::reset);
                 }
                 _ => {}
             }
@@ -272,6 +309,22 @@ impl Runner {
                     });
                 }
             }
+        }
+        if r.state == MachineState::Steady {
+            if let Some(k1) = self.orders.iter().position(|&o| o == 1) {
+                let k = self.orders.len();
+                for tr in &mut self.trackers {
+                    let v = r.vectors[tr.channel_index * k + k1];
+                    if let Some(estimate) = tr.push(t, r.speed_rpm, v) {
+                        out.push(Observation::Estimate {
+                            tracked: Box::new(tr.tracked.clone()),
+                            estimate,
+                        });
+                    }
+                }
+            }
+        } else {
+            self.trackers.iter_mut().for_each(Tracker::reset);
         }
         if matches!(r.state, MachineState::Steady | MachineState::SlowRoll) {
             let start = *self.trend_start.get_or_insert(t);

@@ -6,12 +6,13 @@
 //! run and a new one starts where data resumes. Nothing here can stop the daemon: every failure is
 //! logged with the machine and the input, and the worker goes on with the next job.
 
-use super::writer::{FileResult, Record, WriterTx};
+use super::writer::{EstimateRecord, FileResult, Record, WriterTx};
 use crate::alerts::{AlertChange, AlertEngine, HealthProblem, KnownCritical};
 use crate::config::model::{DaemonSettings, Machine, Source};
 use crate::decode::Recording;
 use crate::ingest::convert::EventRecord;
 use crate::ingest::health::Condition;
+use crate::ingest::models::TrackedModel;
 use crate::ingest::runner::{Observation, Runner};
 use crate::ingest::types::StreamEvent;
 use crate::timefmt;
@@ -45,6 +46,9 @@ pub(crate) struct Worker {
     known: Vec<KnownCritical>,
     /// Alerts left open by the previous run (kind, key, severity), not notified again when found.
     carried_over: Vec<(String, String, veer_storage::Severity)>,
+    /// The measured criticals estimated at steady speed, with their models: the latest per
+    /// channel and mode.
+    models: Vec<TrackedModel>,
     stream: Option<StreamRun>,
 }
 
@@ -64,6 +68,7 @@ struct Collected {
     events: Vec<EventRecord>,
     trend: Vec<TrendRow>,
     health: Vec<HealthRow>,
+    estimates: Vec<EstimateRecord>,
 }
 
 fn known_criticals(m: &Machine) -> Vec<KnownCritical> {
@@ -156,7 +161,40 @@ impl Worker {
             alerts,
             known,
             carried_over: Vec::new(),
+            models: Vec::new(),
             stream: None,
+        }
+    }
+
+    /// Puts `m` in force for its channel and mode (replacing an older model) and starts its
+    /// estimate rule.
+    fn adopt_model(&mut self, m: &TrackedModel) {
+        self.models
+            .retain(|k| !(k.channel == m.channel && k.mode == m.mode));
+        self.models.push(m.clone());
+        self.alerts
+            .track_critical(&m.key(), m.critical_factor(), m.af);
+    }
+
+    /// After a restart the live estimates resume from the models stored with the measured
+    /// criticals, the latest per channel and mode.
+    fn load_models(&mut self) {
+        if !self.machine.alerts.estimate_critical {
+            return;
+        }
+        let (tx, rx) = oneshot::channel();
+        if self
+            .writer
+            .send(Record::Models {
+                machine: self.machine.id.clone(),
+                reply: tx,
+            })
+            .is_err()
+        {
+            return;
+        }
+        for m in rx.blocking_recv().unwrap_or_default() {
+            self.adopt_model(&m);
         }
     }
 
@@ -164,6 +202,7 @@ impl Worker {
     pub(crate) fn run(mut self, mut jobs: mpsc::Receiver<Job>) {
         self.load_carried_over();
         self.load_measured();
+        self.load_models();
         while let Some(job) = jobs.blocking_recv() {
             match job {
                 Job::File(path) => {
@@ -288,7 +327,26 @@ impl Worker {
                     let ch = self.alerts.on_event_criticals(rec.event.end_time, &found);
                     self.alert_changes(ch);
                     self.follow_measured(&found);
+                    if self.machine.alerts.estimate_critical {
+                        for m in &rec.models {
+                            self.adopt_model(m);
+                        }
+                    }
                     into.events.push(*rec);
+                }
+                Observation::Estimate { tracked, estimate } => {
+                    let expected = tracked.model.predict(estimate.rpm);
+                    let ch = self.alerts.on_estimate(
+                        &tracked.key(),
+                        &tracked.channel,
+                        tracked.critical_rpm,
+                        tracked.af,
+                        &estimate,
+                        expected,
+                    );
+                    self.alert_changes(ch);
+                    into.estimates
+                        .push(EstimateRecord::new(&self.machine.id, &tracked, &estimate));
                 }
                 Observation::Trend(rows) => into.trend.extend(rows),
                 Observation::Health {
@@ -412,6 +470,7 @@ impl Worker {
                     events: collected.events,
                     trend: collected.trend,
                     health: collected.health,
+                    estimates: collected.estimates,
                     data_span: span,
                     finished_at: timefmt::now(),
                 })));
@@ -449,6 +508,7 @@ impl Worker {
             rec.sample_rate(),
             t0,
             self.daemon.trend_interval_s,
+            &self.models,
         )?;
         let mut cols = vec![tach];
         cols.extend(&vib);
@@ -544,6 +604,7 @@ impl Worker {
                 b.sample_rate,
                 b.start_unix_s,
                 self.daemon.trend_interval_s,
+                &self.models,
             )?;
             let (tx, rx) = oneshot::channel();
             let port = match &self.machine.source {
@@ -598,6 +659,9 @@ impl Worker {
         }
         for h in c.health {
             let _ = self.writer.send(Record::Health(h));
+        }
+        if !c.estimates.is_empty() {
+            let _ = self.writer.send(Record::Estimates(c.estimates));
         }
     }
 

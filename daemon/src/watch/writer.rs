@@ -7,6 +7,7 @@
 //! processed again when the daemon restarts: never half, never twice.
 
 use crate::ingest::convert::EventRecord;
+use crate::ingest::models::TrackedModel;
 use anyhow::{Context, Result};
 use std::collections::HashMap;
 use std::path::PathBuf;
@@ -14,9 +15,10 @@ use std::sync::mpsc::{Receiver, RecvTimeoutError, SyncSender};
 use std::time::Duration;
 use tokio::sync::oneshot;
 use veer_storage::{
-    AlertRow, CriticalOrigin, GapRow, HealthRow, IngestStatus, MachineRow, NewIngest, SensorRow,
-    Severity, Store, TrendRow, Tx,
+    AlertRow, CriticalOrigin, EstimateRow, GapRow, HealthRow, IngestStatus, MachineRow, NewIngest,
+    SensorRow, Severity, Store, TrendRow, Tx,
 };
+use veer_tracker::drift::Estimate;
 
 /// Identifies an open alert: machine, kind and what it is about.
 pub(crate) type AlertId = (String, String, String);
@@ -28,8 +30,51 @@ pub(crate) struct FileResult {
     pub events: Vec<EventRecord>,
     pub trend: Vec<TrendRow>,
     pub health: Vec<HealthRow>,
+    pub estimates: Vec<EstimateRecord>,
     pub data_span: Option<(f64, f64)>,
     pub finished_at: f64,
+}
+
+/// A live estimate with what names its critical row: the row is found by machine, channel, mode
+/// and the end of the critical's event (the writer stores events before the estimates they feed).
+#[derive(Clone, Debug)]
+pub(crate) struct EstimateRecord {
+    pub machine: String,
+    pub channel: String,
+    pub mode: u32,
+    pub valid_from: f64,
+    /// The row, its `critical_id` filled in by the writer.
+    pub row: EstimateRow,
+}
+
+impl EstimateRecord {
+    /// The row of one window's estimate of `tracked` on `machine`: the natural speed turned into
+    /// the critical speed as its event measured it.
+    pub(crate) fn new(machine: &str, tracked: &TrackedModel, e: &Estimate) -> Self {
+        let factor = tracked.critical_factor();
+        let finite = |v: f64| v.is_finite().then_some(v);
+        Self {
+            machine: machine.to_string(),
+            channel: tracked.channel.clone(),
+            mode: tracked.mode,
+            valid_from: tracked.valid_from,
+            row: EstimateRow {
+                critical_id: 0,
+                time: e.time_s,
+                estimate_rpm: e.natural_rpm * factor,
+                uncertainty_rpm: finite(e.sigma_rpm * factor),
+                informative: e.informative,
+                speed_rpm: finite(e.rpm),
+                natural_rpm: finite(e.natural_rpm),
+                speed_ratio: finite(e.ratio),
+                method: Some(e.method.name().to_string()),
+                reason: e.reason.map(|r| r.name().to_string()),
+                change: Some(e.change.name().to_string()),
+                locus_residual: finite(e.locus_residual),
+                revolutions: Some(e.revolutions as u64),
+            },
+        }
+    }
 }
 
 /// What the writer is asked to do.
@@ -73,6 +118,13 @@ pub(crate) enum Record {
     },
     /// Trend points.
     Trend(Vec<TrendRow>),
+    /// Live critical-speed estimates from a stream.
+    Estimates(Vec<EstimateRecord>),
+    /// The models the machine's live estimates resume from after a restart.
+    Models {
+        machine: String,
+        reply: oneshot::Sender<Vec<TrackedModel>>,
+    },
     /// A health change.
     Health(HealthRow),
     /// Missing or damaged stream data.
@@ -202,8 +254,46 @@ fn store_events(tx: &Tx<'_>, ingest_id: Option<i64>, events: &[EventRecord]) -> 
         for c in &rec.criticals {
             let mut c = c.clone();
             c.origin = CriticalOrigin::Measured { event_id: eid };
-            tx.add_critical(&c)?;
+            let cid = tx.add_critical(&c)?;
+            let model = rec
+                .models
+                .iter()
+                .find(|m| Some(&m.channel) == c.channel.as_ref() && m.mode == c.mode);
+            if let Some(m) = model {
+                tx.insert_model(&m.row(cid))?;
+            }
         }
+    }
+    Ok(())
+}
+
+/// Stores estimates, each against its critical row; an estimate whose critical is not stored
+/// (its event failed to store) is logged and dropped rather than failing the batch.
+fn store_estimates(tx: &Tx<'_>, estimates: &[EstimateRecord]) -> Result<()> {
+    let mut ids: HashMap<(String, String, u32, u64), Option<i64>> = HashMap::new();
+    for e in estimates {
+        let k = (
+            e.machine.clone(),
+            e.channel.clone(),
+            e.mode,
+            e.valid_from.to_bits(),
+        );
+        let id = match ids.get(&k) {
+            Some(id) => *id,
+            None => {
+                let id = tx.measured_critical_id(&e.machine, &e.channel, e.mode, e.valid_from)?;
+                ids.insert(k, id);
+                id
+            }
+        };
+        let Some(critical_id) = id else {
+            tracing::warn!(machine = %e.machine, channel = %e.channel, mode = e.mode, "estimate of a critical that is not stored; dropped");
+            continue;
+        };
+        tx.insert_estimate(&EstimateRow {
+            critical_id,
+            ..e.row.clone()
+        })?;
     }
     Ok(())
 }
@@ -237,6 +327,7 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Recor
             for h in &f.health {
                 tx.insert_health(h)?;
             }
+            store_estimates(tx, &f.estimates)?;
             if let Some((a, b)) = f.data_span {
                 tx.set_ingest_span(id, a, b)?;
             }
@@ -277,6 +368,15 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Recor
             store.transaction(|tx| store_events(tx, ingest_id, &events))?
         }
         Record::Trend(rows) => store.transaction(|tx| tx.insert_trend(&rows))?,
+        Record::Estimates(rows) => store.transaction(|tx| store_estimates(tx, &rows))?,
+        Record::Models { machine, reply } => {
+            let models = store
+                .latest_models(&machine)?
+                .iter()
+                .filter_map(|(c, m)| TrackedModel::from_stored(c, m))
+                .collect();
+            let _ = reply.send(models);
+        }
         Record::Health(h) => {
             store.insert_health(&h)?;
         }

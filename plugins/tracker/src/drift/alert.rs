@@ -121,7 +121,7 @@ pub struct Assessment {
     /// The present estimate moved `sigmas` of its σ towards the range.
     pub present: Bound,
     /// The trend projected `horizon_s` ahead and moved `sigmas` of its σ towards the range (never
-    /// further from it than the present bound); `None` before three windows.
+    /// further from it than the present bound); `None` until three windows span half the horizon.
     pub projected: Option<Bound>,
     /// The trend's slope of the critical speed, r/min per s.
     pub slope_rpm_per_s: Option<f64>,
@@ -197,14 +197,19 @@ impl DriftAlert {
     }
 
     /// The natural speed to hold to the margin now (the latest estimate moved `sigmas` of its σ
-    /// towards the range) and, from three windows on, the trend's projection to the horizon moved
+    /// towards the range) and, once the history is long enough, the trend's projection to the horizon moved
     /// `sigmas` of the projection's σ, with the trend's slope (r/min per s); `None` with no history.
     fn bounds(&self, toward_lower: bool) -> Option<(f64, Option<(f64, f64)>)> {
         let &(t_now, nn_now, s_now) = self.history.back()?;
         let k = self.cfg.sigmas;
         let sign = if toward_lower { -1.0 } else { 1.0 };
         let present = nn_now + sign * k * s_now;
-        if self.history.len() < 3 {
+        // A trend is projected only from three windows on and over a history at least half as
+        // long as the horizon (or the trend window, if shorter): a line through a minute and a
+        // half of estimates, extrapolated half an hour, says nothing but its own noise.
+        let span = t_now - self.history.front().map_or(t_now, |h| h.0);
+        let needed = 0.5 * self.cfg.horizon_s.min(self.cfg.trend_window_s);
+        if self.history.len() < 3 || span < needed {
             return Some((present, None));
         }
         let (mut sw, mut st, mut sn) = (0.0, 0.0, 0.0);

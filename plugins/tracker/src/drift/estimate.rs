@@ -227,6 +227,8 @@ pub struct Estimate {
     pub locus_residual: f64,
     /// What changed since the model's event.
     pub change: Change,
+    /// The window's mean raw 1X vector (before the model's compensation), input units.
+    pub vector: Complex64,
 }
 
 /// Sums over the window in progress; no allocation per revolution.
@@ -405,6 +407,7 @@ impl Estimator {
             sensitivity_deg_per_pct,
             locus_residual,
             change,
+            vector: self.model.modal_vector * z + self.model.background + self.model.slow_roll,
         }
     }
 }
