@@ -166,6 +166,10 @@ fn minimal_configuration_takes_the_defaults() {
     assert_eq!(m.alerts.outputs.len(), 1);
     assert_eq!(m.alerts.outputs[0].kind, OutputKind::Log);
     assert_eq!(m.alerts.startup_multiplier, 2.0);
+    assert!(m.alerts.estimate_critical);
+    assert_eq!(m.alerts.estimate_window_s, 30.0);
+    assert_eq!(m.alerts.estimate_trend_min, 60.0);
+    assert_eq!(m.alerts.estimate_sigmas, 2.0);
     assert_eq!(cfg.daemon.log_format, LogFormat::Human);
     assert!(cfg.daemon.queues.blocks > 0);
     // The plausible tach window brackets the operating range.
@@ -562,6 +566,14 @@ fn tracking_and_alert_values_are_checked() {
     assert!(msg.contains("alerts.warn_band_pct"), "{msg}");
     let msg = err(&with("[machine.alerts]\nstartup_multiplier = 0.5"));
     assert!(msg.contains("alerts.startup_multiplier"), "{msg}");
+    let msg = err(&with("[machine.alerts]\nestimate_window_s = 0.2"));
+    assert!(msg.contains("alerts.estimate_window_s"), "{msg}");
+    let msg = err(&with("[machine.alerts]\nestimate_trend_min = 0"));
+    assert!(msg.contains("alerts.estimate_trend_min"), "{msg}");
+    let msg = err(&with("[machine.alerts]\nestimate_sigmas = -1"));
+    assert!(msg.contains("alerts.estimate_sigmas"), "{msg}");
+    let msg = err(&with("[machine.alerts]\nestimate_critical = \"yes\""));
+    assert!(msg.contains("estimate_critical"), "{msg}");
     let msg = err(&format!("{MINIMAL}[daemon]\nlog_format = \"xml\"\n"));
     assert!(
         msg.contains("daemon.log_format") && msg.contains("xml"),
