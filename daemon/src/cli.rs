@@ -206,6 +206,21 @@ pub(crate) struct SimulateArgs {
     /// many sensors (load and throughput tests of the daemon).
     #[arg(long, value_parser = clap::value_parser!(u16).range(1..=255))]
     pub channels: Option<u16>,
+    /// Natural speed of the first mode of every channel, r/min, in place of the machine's: puts
+    /// its critical where a test wants it (e.g. 1885 on fan-2, 1.30 times its 1450 r/min).
+    #[arg(long, value_name = "RPM")]
+    pub natural_rpm: Option<f64>,
+    /// Let the natural speed of every mode of every channel move linearly in time over the
+    /// recording, to P percent away from its starting value at the end of the speed profile
+    /// (negative: it falls, as when a bearing wears or a support loosens). The damping ratio
+    /// stays the same, so the critical speed drifts with it.
+    #[arg(long, value_name = "P", allow_negative_numbers = true)]
+    pub natural_drift_pct: Option<f64>,
+    /// Turn the heavy spot of every mode by DEG degrees (against rotation) at SECONDS into the
+    /// recording, e.g. 30@120, with the eccentricity unchanged: a piece thrown, a deposit
+    /// shifted. The 1X lag moves by about DEG once the mode has settled.
+    #[arg(long, value_name = "DEG@SECONDS", allow_hyphen_values = true)]
+    pub unbalance_turn: Option<String>,
 }
 
 #[derive(Debug, Args)]
@@ -309,6 +324,9 @@ pub(crate) struct MarginsArgs {
     /// Print one JSON document instead of the table.
     #[arg(long)]
     pub json: bool,
+    /// Also write the live critical-speed estimates over time as an SVG plot to this file.
+    #[arg(long)]
+    pub plot: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]

@@ -39,6 +39,8 @@ fn mode(rpm: f64, zeta: f64, ecc: f64, heavy: f64) -> SimMode {
         damping_ratio: zeta,
         eccentricity: ecc,
         heavy_spot_deg: heavy,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     }
 }
 

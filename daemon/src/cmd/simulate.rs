@@ -30,6 +30,63 @@ fn parse_profile(s: &str) -> Result<SpeedProfile> {
     SpeedProfile::new(points).map_err(|e| anyhow!("--profile: {e}"))
 }
 
+/// Parses `DEG@SECONDS` of `--unbalance-turn` into `(seconds, degrees)`, the order of
+/// [`veer_tracker::sim::SimMode::heavy_spot_step`].
+fn parse_unbalance_turn(s: &str) -> Result<(f64, f64)> {
+    let (deg, secs) = s
+        .split_once('@')
+        .ok_or_else(|| anyhow!("--unbalance-turn: `{s}` is not DEG@SECONDS"))?;
+    let deg: f64 = deg
+        .trim()
+        .parse()
+        .with_context(|| format!("--unbalance-turn: angle `{deg}`"))?;
+    let secs: f64 = secs
+        .trim()
+        .parse()
+        .with_context(|| format!("--unbalance-turn: time `{secs}`"))?;
+    if !deg.is_finite() {
+        bail!("--unbalance-turn: angle `{deg}` must be finite");
+    }
+    if !(secs.is_finite() && secs >= 0.0) {
+        bail!("--unbalance-turn: time `{secs}` must be finite and not negative");
+    }
+    Ok((secs, deg))
+}
+
+/// Applies `--natural-rpm`, `--natural-drift-pct` and `--unbalance-turn` to every channel, in that
+/// order, so a drift is a percentage of the natural speed the first option put in place.
+fn apply_mode_changes(a: &SimulateArgs, channels: &mut [SimChannel]) -> Result<()> {
+    if let Some(rpm) = a.natural_rpm {
+        if !(rpm.is_finite() && rpm > 0.0) {
+            bail!("--natural-rpm {rpm}: must be a positive speed");
+        }
+    }
+    if let Some(p) = a.natural_drift_pct {
+        if !(p.is_finite() && p > -100.0) {
+            bail!("--natural-drift-pct {p}: must be above -100 (the natural speed stays positive)");
+        }
+    }
+    let turn = a
+        .unbalance_turn
+        .as_deref()
+        .map(parse_unbalance_turn)
+        .transpose()?;
+    for c in channels {
+        if let (Some(rpm), Some(first)) = (a.natural_rpm, c.modes.first_mut()) {
+            first.natural_rpm = rpm;
+        }
+        for m in &mut c.modes {
+            if let Some(p) = a.natural_drift_pct {
+                m.natural_rpm_end = Some(m.natural_rpm * (1.0 + p / 100.0));
+            }
+            if turn.is_some() {
+                m.heavy_spot_step = turn;
+            }
+        }
+    }
+    Ok(())
+}
+
 /// `n` copies of `first` named `ch01`, `ch02`, ... (wider numbers from 100 channels on), their
 /// probe angles stepped by 360/n degrees from the first one's.
 ///
@@ -88,6 +145,7 @@ pub(crate) fn sim_config(a: &SimulateArgs) -> Result<SimConfig> {
             });
         }
     }
+    apply_mode_changes(a, &mut channels)?;
     let ppr = a.ppr.unwrap_or(m.tach.ppr);
     if a.gap_teeth >= ppr {
         bail!(
@@ -313,6 +371,97 @@ mod tests {
         // Overrides reach every copy.
         let cfg = sim_config(&args(&["--channels", "3", "--noise", "0.25"])).expect("config");
         assert!(cfg.channels.iter().all(|c| c.noise_rms == 0.25));
+    }
+
+    #[test]
+    fn mode_changes_reach_every_mode_of_every_channel() {
+        // tg-1: two channels of two modes each.
+        let cfg = sim_config(&args(&[
+            "--machine",
+            "tg-1",
+            "--natural-rpm",
+            "1885",
+            "--natural-drift-pct",
+            "-19.3",
+            "--unbalance-turn",
+            "30@120",
+        ]))
+        .expect("config");
+        let plant_modes = &plant::machine("tg-1").expect("tg-1").channels[0].modes;
+        assert_eq!(cfg.channels.len(), 2);
+        for c in &cfg.channels {
+            assert_eq!(c.modes.len(), 2);
+            assert_eq!(c.modes[0].natural_rpm, 1885.0);
+            // Only the first mode's natural speed is replaced.
+            assert_eq!(c.modes[1].natural_rpm, plant_modes[1].natural_rpm);
+            for m in &c.modes {
+                let end = m.natural_rpm_end.expect("drift set");
+                // natural_rpm × (1 + P/100), the option's definition.
+                assert!((end - m.natural_rpm * 0.807).abs() < 1e-9 * end, "{end}");
+                assert_eq!(m.heavy_spot_step, Some((120.0, 30.0)));
+            }
+        }
+        assert!((cfg.channels[0].modes[0].natural_rpm_end.expect("set") - 1521.195).abs() < 1e-9);
+        // The `=` form and a negative turn.
+        let cfg = sim_config(&args(&[
+            "--machine",
+            "fan-2",
+            "--natural-drift-pct=5",
+            "--unbalance-turn",
+            "-45@2.5",
+        ]))
+        .expect("config");
+        let m = &cfg.channels[0].modes[0];
+        assert!((m.natural_rpm_end.expect("set") - 1210.0 * 1.05).abs() < 1e-9);
+        assert_eq!(m.heavy_spot_step, Some((2.5, -45.0)));
+        // Without the options nothing changes.
+        let cfg = sim_config(&args(&["--machine", "fan-2"])).expect("config");
+        assert_eq!(cfg.channels[0].modes[0].natural_rpm_end, None);
+        assert_eq!(cfg.channels[0].modes[0].heavy_spot_step, None);
+    }
+
+    #[test]
+    fn bad_mode_change_options_name_the_option() {
+        let err = |extra: &[&str]| {
+            let e = sim_config(&args(extra)).expect_err("rejected");
+            format!("{e:#}")
+        };
+        for (extra, want) in [
+            (
+                &["--unbalance-turn", "30"][..],
+                "--unbalance-turn: `30` is not DEG@SECONDS",
+            ),
+            (
+                &["--unbalance-turn", "x@3"][..],
+                "--unbalance-turn: angle `x`",
+            ),
+            (
+                &["--unbalance-turn", "30@soon"][..],
+                "--unbalance-turn: time `soon`",
+            ),
+            (
+                &["--unbalance-turn", "30@-1"][..],
+                "--unbalance-turn: time `-1`",
+            ),
+            (
+                &["--natural-drift-pct", "-100"][..],
+                "--natural-drift-pct -100",
+            ),
+            (&["--natural-rpm", "0"][..], "--natural-rpm 0"),
+        ] {
+            let msg = err(extra);
+            assert!(msg.starts_with(want), "{extra:?}: {msg}");
+            assert!(!msg.contains('\n'), "{msg}");
+        }
+        assert!(Cli::try_parse_from([
+            "veer",
+            "simulate",
+            "--out",
+            "a.wav",
+            "--natural-rpm",
+            "fast"
+        ])
+        .is_err());
     }
 
     #[test]

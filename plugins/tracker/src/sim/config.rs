@@ -17,6 +17,15 @@ pub struct SimMode {
     /// Angle of the unbalance (heavy spot) from the reference mark, degrees, measured against
     /// rotation: it is the 1X phase lag at slow roll seen by a probe at the tach pickup.
     pub heavy_spot_deg: f64,
+    /// When set, the natural speed (r/min) at the end of the speed profile: the natural speed then
+    /// moves linearly in time from [`Self::natural_rpm`] at t = 0 to this value, as when a bearing
+    /// wears or a support loosens during the recording. The damping ratio stays the same.
+    pub natural_rpm_end: Option<f64>,
+    /// When set, `(time_s, degrees)`: from that time on the heavy spot is turned by that many
+    /// degrees (against rotation, like [`Self::heavy_spot_deg`]) with the eccentricity unchanged, as
+    /// when a piece is thrown or a deposit shifts. The mode then settles to its new steady state
+    /// through its own free transient.
+    pub heavy_spot_step: Option<(f64, f64)>,
 }
 
 impl Default for SimMode {
@@ -27,6 +36,8 @@ impl Default for SimMode {
             damping_ratio: 0.05,
             eccentricity: 1.0,
             heavy_spot_deg: 0.0,
+            natural_rpm_end: None,
+            heavy_spot_step: None,
         }
     }
 }
@@ -38,6 +49,50 @@ impl SimMode {
         let r = rpm / self.natural_rpm;
         let h = unbalance_response(r, self.damping_ratio);
         h * from_amp_lag(self.eccentricity, self.heavy_spot_deg + probe_angle_deg)
+    }
+
+    /// The natural speed, r/min, at time `t` of a recording whose speed profile lasts `duration_s`:
+    /// [`Self::natural_rpm`] when it does not drift, otherwise linear in time from it at t = 0 to
+    /// [`Self::natural_rpm_end`] at `duration_s` (held outside that span).
+    pub fn natural_rpm_at(&self, t: f64, duration_s: f64) -> f64 {
+        match self.natural_rpm_end {
+            Some(end) if duration_s > 0.0 => {
+                let u = (t / duration_s).clamp(0.0, 1.0);
+                self.natural_rpm + (end - self.natural_rpm) * u
+            }
+            Some(end) if t > 0.0 => end,
+            _ => self.natural_rpm,
+        }
+    }
+
+    /// The heavy-spot angle, degrees, at time `t`: [`Self::heavy_spot_deg`], plus the step's turn
+    /// from the step's time on.
+    pub fn heavy_spot_deg_at(&self, t: f64) -> f64 {
+        match self.heavy_spot_step {
+            Some((at, turn)) if t >= at => self.heavy_spot_deg + turn,
+            _ => self.heavy_spot_deg,
+        }
+    }
+
+    /// The steady-state 1X vector at constant `rpm` with the natural speed and heavy spot this mode
+    /// has at time `t` of a recording lasting `duration_s`, seen by a probe at `probe_angle_deg`.
+    ///
+    /// What the mode settles to if its natural speed and heavy spot stayed as they are at `t`: the
+    /// quasi-static reference for a slowly drifting mode (the simulated response trails it by
+    /// about the mode's settling time `1/(ζω_n)`).
+    pub fn steady_vector_at(
+        &self,
+        rpm: f64,
+        probe_angle_deg: f64,
+        t: f64,
+        duration_s: f64,
+    ) -> Complex64 {
+        let r = rpm / self.natural_rpm_at(t, duration_s);
+        let h = unbalance_response(r, self.damping_ratio);
+        h * from_amp_lag(
+            self.eccentricity,
+            self.heavy_spot_deg_at(t) + probe_angle_deg,
+        )
     }
 
     fn validate_as(&self, field: &str) -> Result<(), SimError> {
@@ -54,7 +109,25 @@ impl SimMode {
             ));
         }
         finite(self.eccentricity, &format!("{field}.eccentricity"))?;
-        finite(self.heavy_spot_deg, &format!("{field}.heavy_spot_deg"))
+        finite(self.heavy_spot_deg, &format!("{field}.heavy_spot_deg"))?;
+        if let Some(end) = self.natural_rpm_end {
+            if !(end.is_finite() && end > 0.0) {
+                return Err(SimError::invalid(
+                    format!("{field}.natural_rpm_end"),
+                    "must be finite and positive",
+                ));
+            }
+        }
+        if let Some((at, turn)) = self.heavy_spot_step {
+            if !(at.is_finite() && at >= 0.0) {
+                return Err(SimError::invalid(
+                    format!("{field}.heavy_spot_step.time_s"),
+                    "must be finite and not negative",
+                ));
+            }
+            finite(turn, &format!("{field}.heavy_spot_step.degrees"))?;
+        }
+        Ok(())
     }
 }
 
@@ -125,6 +198,17 @@ impl SimChannel {
             .modes
             .iter()
             .map(|m| m.steady_vector(rpm, self.probe_angle_deg))
+            .sum();
+        modes + from_amp_lag(self.runout, self.runout_lag_deg)
+    }
+
+    /// [`Self::steady_1x`] with every mode's natural speed and heavy spot as they are at time `t`
+    /// of a recording lasting `duration_s` (see [`SimMode::steady_vector_at`]).
+    pub fn steady_1x_at(&self, rpm: f64, t: f64, duration_s: f64) -> Complex64 {
+        let modes: Complex64 = self
+            .modes
+            .iter()
+            .map(|m| m.steady_vector_at(rpm, self.probe_angle_deg, t, duration_s))
             .sum();
         modes + from_amp_lag(self.runout, self.runout_lag_deg)
     }

@@ -41,6 +41,7 @@
 //!   and at every breakpoint (at fixed frame indices, so blocks of any size give identical output):
 //!   angle error below 1e-12 rad. Output is rounded to f32 (relative 6·10⁻⁸ of each sample).
 
+mod changes;
 mod config;
 mod profile;
 mod rng;

@@ -2,6 +2,7 @@
 
 use std::f64::consts::TAU;
 
+use super::changes::Changes;
 use super::config::{SimChannel, SimConfig};
 use super::profile::Segments;
 use super::rng::Rng;
@@ -78,13 +79,16 @@ impl Shaft {
     }
 }
 
-/// One mode of one channel: its stepper and the unbalance angle as a unit phasor times ε.
+/// One mode of one channel: its stepper, the unbalance angle as a unit phasor times ε, and the
+/// slow changes still to come.
 #[derive(Clone, Debug)]
 struct ModeState {
     sdof: Sdof,
     /// ε cos(β + α), ε sin(β + α).
     ec: f64,
     es: f64,
+    eccentricity: f64,
+    changes: Changes,
 }
 
 impl ModeState {
@@ -95,6 +99,42 @@ impl ModeState {
         let cos_psi = c * self.ec + s * self.es;
         let sin_psi = s * self.ec - c * self.es;
         om2 * cos_psi + omd * sin_psi
+    }
+
+    /// Sets the unbalance angle (heavy spot plus probe angle), radians.
+    fn set_angle(&mut self, rad: f64) {
+        self.ec = self.eccentricity * rad.cos();
+        self.es = self.eccentricity * rad.sin();
+    }
+
+    /// Applies the changes due before the step that starts at frame `n`, whose shaft values are
+    /// `sh`: a rebuilt integrator takes over the displacement and velocity, and the forcing of
+    /// frame `n` (recomputed exactly as it was when frame `n` was reached, with the angle in force
+    /// then); a turn of the heavy spot applies to the forcing of the frames after `n`.
+    fn apply_changes(&mut self, n: u64, sh: [f64; 4]) {
+        let due = self.changes.due(n);
+        if let Some(mut sdof) = due.rebuild {
+            sdof.set_state(
+                self.sdof.displacement(),
+                self.sdof.velocity(),
+                self.forcing(sh),
+            );
+            self.sdof = sdof;
+        }
+        if let Some(rad) = due.turn_rad {
+            self.set_angle(rad);
+        }
+    }
+
+    /// Adds this mode's displacement at each frame of `acc` and steps on; `shaft` holds the shaft
+    /// values of those frames plus the one after. The per-sample loop of the simulator.
+    #[inline]
+    fn render(&mut self, acc: &mut [f64], shaft: &[[f64; 4]]) {
+        for (i, a) in acc.iter_mut().enumerate() {
+            *a += self.sdof.displacement();
+            let f_next = self.forcing(shaft[i + 1]);
+            self.sdof.step(f_next);
+        }
     }
 }
 
@@ -170,7 +210,7 @@ impl Simulator {
         let tach = TachRenderer::new(&cfg.tach, dt, &segs, Rng::new(cfg.seed, 0));
         let mut channels = Vec::with_capacity(cfg.channels.len());
         for (i, ch) in cfg.channels.iter().enumerate() {
-            channels.push(channel_state(ch, i, &cfg, dt, sh0)?);
+            channels.push(channel_state(ch, i, &cfg, total, sh0)?);
         }
         let nch = channels.len();
         Ok(Self {
@@ -274,21 +314,33 @@ fn channel_state(
     ch: &SimChannel,
     index: usize,
     cfg: &SimConfig,
-    dt: f64,
+    total: u64,
     sh0: [f64; 4],
 ) -> Result<ChannelState, SimError> {
+    let dt = 1.0 / cfg.sample_rate;
     let omega0 = sh0[2].sqrt();
     let mut modes = Vec::with_capacity(ch.modes.len());
     for (j, m) in ch.modes.iter().enumerate() {
         let field = format!("channels[{index}].modes[{j}].natural_rpm");
-        let wn = m.natural_rpm * TAU / 60.0;
-        let mut sdof = Sdof::new(wn, m.damping_ratio, dt)
-            .map_err(|e| SimError::invalid(field.clone(), e.reason()))?;
-        let angle = (m.heavy_spot_deg + ch.probe_angle_deg).to_radians();
+        let (changes, drifting, angle) = Changes::new(
+            m,
+            ch.probe_angle_deg,
+            cfg.profile.duration_s(),
+            cfg.sample_rate,
+            total,
+        );
+        // A drifting mode starts with its first interval's natural speed (see `changes`).
+        let mut sdof = match drifting {
+            Some(s) => s,
+            None => Sdof::new(m.natural_rpm * TAU / 60.0, m.damping_ratio, dt)
+                .map_err(|e| SimError::invalid(field.clone(), e.reason()))?,
+        };
         let state = ModeState {
             sdof: sdof.clone(),
             ec: m.eccentricity * angle.cos(),
             es: m.eccentricity * angle.sin(),
+            eccentricity: m.eccentricity,
+            changes,
         };
         let f0 = state.forcing(sh0);
         if cfg.start_at_rest {
@@ -333,11 +385,24 @@ fn channel_state(
 /// Writes one channel's samples for the frames of `shaft` (all but the look-ahead) into `acc`.
 fn render_channel(ch: &mut ChannelState, shaft: &[[f64; 4]], n0: u64, dt: f64, acc: &mut [f64]) {
     acc.fill(ch.offset);
+    let len = acc.len();
     for m in &mut ch.modes {
-        for (i, a) in acc.iter_mut().enumerate() {
-            *a += m.sdof.displacement();
-            let f_next = m.forcing(shaft[i + 1]);
-            m.sdof.step(f_next);
+        // Runs of frames between scheduled changes (absolute frame indices, so the cuts between
+        // blocks do not matter), each rendered by the tight per-sample loop.
+        let mut i = 0;
+        while i < len {
+            let n = n0 + i as u64;
+            if n == m.changes.next() {
+                m.apply_changes(n, shaft[i]);
+            }
+            // At least one frame, so a change can never stall the loop.
+            let stop = m
+                .changes
+                .next()
+                .saturating_sub(n0)
+                .clamp(i as u64 + 1, len as u64) as usize;
+            m.render(&mut acc[i..stop], &shaft[i..=stop]);
+            i = stop;
         }
     }
     let (r, s2) = (ch.runout, ch.second);

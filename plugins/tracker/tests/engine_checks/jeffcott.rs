@@ -35,6 +35,8 @@ fn jeffcott_rotor_from_physical_data() {
         damping_ratio: zeta,
         eccentricity: 5.0,
         heavy_spot_deg: 200.0,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     // 1000 → 8000 r/min over 100 s: η = (dΩ/dt)/ωn² ≈ 2·10⁻⁵ (quasi-steady, REFERENCES §6).
     let profile = SpeedProfile::ramp(1000.0, 8000.0, 100.0);

@@ -16,6 +16,8 @@ fn phase_lag_regimes_below_at_and_above_the_critical() {
         damping_ratio: zeta,
         eccentricity: 10.0,
         heavy_spot_deg: heavy,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     // Up to r = 2.5, 300 → 6000 r/min over 200 s (quasi-steady, REFERENCES §6).
     let sim = sim_config(

@@ -41,6 +41,8 @@ fn stray_tone_crossed_in_a_run_up_is_not_a_critical() {
         damping_ratio: 0.05,
         eccentricity: 10.0,
         heavy_spot_deg: 10.0,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     let peak = 10.0 / (2.0 * 0.05 * (1.0f64 - 0.0025).sqrt());
     let mut sim = sim_config(

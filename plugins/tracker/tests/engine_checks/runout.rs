@@ -18,6 +18,8 @@ fn sim(runout: f64) -> SimConfig {
         damping_ratio: ZETA,
         eccentricity: ECC,
         heavy_spot_deg: 30.0,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     // 20 s of slow roll at 300 r/min, then a run-up to 4000 r/min over 200 s.
     let profile = SpeedProfile::constant(300.0, 20.0).then_ramp_to(4000.0, 200.0);

@@ -103,6 +103,8 @@ fn engine_sees_the_sweep_bias_the_model_predicts() {
             damping_ratio: zeta,
             eccentricity: 10.0,
             heavy_spot_deg: 0.0,
+            natural_rpm_end: None,
+            heavy_spot_step: None,
         };
         let sim = sim_config(profile, 2000.0, vec![mode], 0.05);
         let out = run(&sim, &engine_config(&sim), false);

@@ -18,6 +18,8 @@ fn base_sim() -> SimConfig {
         damping_ratio: 0.05,
         eccentricity: 10.0,
         heavy_spot_deg: 60.0,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     // 300 → 1800 r/min over 150 s; 8 kHz keeps over four samples per tooth of a 60-tooth wheel at
     // the top speed (1800 teeth/s).

@@ -16,12 +16,16 @@ pub fn two_modes() -> Vec<SimMode> {
             damping_ratio: 0.05,
             eccentricity: 8.0,
             heavy_spot_deg: 40.0,
+            natural_rpm_end: None,
+            heavy_spot_step: None,
         },
         SimMode {
             natural_rpm: 4200.0,
             damping_ratio: 0.04,
             eccentricity: 6.0,
             heavy_spot_deg: 250.0,
+            natural_rpm_end: None,
+            heavy_spot_step: None,
         },
     ]
 }

@@ -16,6 +16,8 @@ fn slow_run_up_matches_single_mode_unbalance_response() {
         damping_ratio: zeta,
         eccentricity: ecc,
         heavy_spot_deg: heavy,
+        natural_rpm_end: None,
+        heavy_spot_step: None,
     };
     // 300 → 4000 r/min over 200 s: η = (dΩ/dt)/ωn² ≈ 3·10⁻⁵, below the slowest row of the sweep
     // table of REFERENCES §6 (η = 10⁻⁴ moves the peak by 0.1 % at ζ = 0.05), so quasi-steady.
