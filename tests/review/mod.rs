@@ -2,6 +2,7 @@
 //! one `veer demo --dir` run, shared by every test here, fills it through the daemon with the
 //! demo plant's run-ups and coast-downs; each test then queries it.
 
+mod estimates;
 mod margins;
 mod plots;
 mod report;

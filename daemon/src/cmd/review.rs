@@ -61,6 +61,12 @@ pub(crate) fn report(a: ReportArgs) -> Result<()> {
 pub(crate) fn margins(a: MarginsArgs) -> Result<()> {
     let (store, cfg) = open(&a.source)?;
     let doc = review::margins::document(&store, cfg.as_ref(), &a.machine, &a.zones)?;
+    // The plot before the document: a machine without estimates fails with one line and prints
+    // nothing else.
+    if let Some(path) = &a.plot {
+        let svg = review::margins::plot(&store, cfg.as_ref(), &a.machine)?;
+        write_file(path, &svg)?;
+    }
     if a.json {
         print_json(&doc)
     } else {

@@ -12,6 +12,7 @@
 //! velocity (by machine group and support; partly confirmed from secondary sources).
 
 use super::bias::pair_corrected;
+use super::plot::estimates::{self, counts, EstimateSeries, UNBALANCE};
 use super::{r, range_of, ro, rule_for, se};
 use crate::config::Config;
 use crate::report::{side_name, verdict_name, CAUTION};
@@ -20,8 +21,8 @@ use anyhow::{anyhow, Result};
 use serde_json::{json, Value};
 use std::collections::BTreeMap;
 use std::fmt::Write;
-use veer_storage::{CriticalOrigin, EventKind, Store};
-use veer_tracker::margin::assess;
+use veer_storage::{CriticalOrigin, EstimateRow, EventKind, Store};
+use veer_tracker::margin::{assess, MarginRule, OperatingRange};
 
 /// Zone boundaries (A/B, B/C, C/D) of casing velocity, mm/s r.m.s., ISO 10816-3:2009 Tables
 /// A.1/A.2 (carried into ISO 20816-3:2022 Annex A): group 1 rigid confirmed (secondary), group 2
@@ -226,6 +227,8 @@ pub(crate) fn document(
             "bias_corrected_rpm": last_up.zip(last_down).map(|((u, ur), (d, dr))| r(pair_corrected(u, ur, d, dr), 1)),
         }));
     }
+    let series = estimates::load(store, machine, |_| true)?;
+    let live = live_blocks(store, &series, range, rule, band)?;
     let rec = recommend(store, machine, &m, &events, zones)?;
     let rec_band = band.max((2.0 * widest_spread).ceil());
     let toml = snippet(&m.id, &m.name, &rec, &rule.name(), rec_band);
@@ -235,6 +238,7 @@ pub(crate) fn document(
         "margin_rule": rule.name(),
         "warn_band_pct": band,
         "criticals": modes,
+        "live_estimates": live,
         "recommended": {
             "channels": rec,
             "warn_band_pct": rec_band,
@@ -243,6 +247,162 @@ pub(crate) fn document(
         "toml": toml,
         "caution": format!("{CAUTION} Recommended settings are a starting point from the machine's own history; settings follow the builder's data, the standards and local codes."),
     }))
+}
+
+/// The window of the live trend: the last day of data of a critical's estimates, seconds.
+const LIVE_WINDOW_S: f64 = 86_400.0;
+/// Shortest span of informative estimates a live trend is given over, seconds: over less, a
+/// rate per day extrapolates the noise of a few windows (and the thermal settling after a start)
+/// by more than the day itself holds.
+const MIN_LIVE_SPAN_S: f64 = 4.0 * 3600.0;
+/// Fewest informative estimates a live trend is given from.
+const MIN_LIVE_POINTS: usize = 3;
+
+/// A straight line through (days, r/min), its slope in r/min per day with one standard deviation.
+///
+/// Weighted least squares with weights 1/σ² when every point has a σ (the weighting the drift
+/// alert uses, docs/critical-estimate.md §5), the slope's σ then 1/√(Σw(t − t̄)²) scaled up by the
+/// reduced χ² when the points scatter more than their σ says; ordinary least squares otherwise,
+/// the slope's σ from the residuals. Closed forms of any regression text (e.g. Bevington and
+/// Robinson, Data Reduction and Error Analysis, 3rd ed., ch. 6; from memory).
+fn line_fit(points: &[(f64, f64, Option<f64>)]) -> Option<(f64, f64, bool)> {
+    if points.len() < 2 {
+        return None;
+    }
+    let weighted = points
+        .iter()
+        .all(|p| p.2.is_some_and(|s| s.is_finite() && s > 0.0));
+    let w = |p: &(f64, f64, Option<f64>)| {
+        if weighted {
+            p.2.map_or(1.0, |s| 1.0 / (s * s))
+        } else {
+            1.0
+        }
+    };
+    let sw: f64 = points.iter().map(w).sum();
+    let mt = points.iter().map(|p| w(p) * p.0).sum::<f64>() / sw;
+    let my = points.iter().map(|p| w(p) * p.1).sum::<f64>() / sw;
+    let stt: f64 = points.iter().map(|p| w(p) * (p.0 - mt).powi(2)).sum();
+    if !(stt > 0.0) {
+        return None;
+    }
+    let sty: f64 = points.iter().map(|p| w(p) * (p.0 - mt) * (p.1 - my)).sum();
+    let b = sty / stt;
+    let dof = points.len().saturating_sub(2).max(1) as f64;
+    let chi2: f64 = points
+        .iter()
+        .map(|p| w(p) * (p.1 - my - b * (p.0 - mt)).powi(2))
+        .sum::<f64>()
+        / dof;
+    let scale = if weighted { chi2.max(1.0) } else { chi2 };
+    Some((b, (scale / stt).sqrt(), weighted))
+}
+
+/// The trend of one critical's informative estimates over the last day of its data.
+fn live_trend(rows: &[&EstimateRow]) -> Value {
+    let end = rows
+        .iter()
+        .map(|x| x.time)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let from = end - LIVE_WINDOW_S;
+    let pts: Vec<(f64, f64, Option<f64>)> = rows
+        .iter()
+        .filter(|x| counts(x) && x.time >= from && x.estimate_rpm.is_finite())
+        .map(|x| ((x.time - end) / 86_400.0, x.estimate_rpm, x.uncertainty_rpm))
+        .collect();
+    let (t0, t1) = pts
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| {
+            (a.min(p.0), b.max(p.0))
+        });
+    let span_s = if pts.is_empty() {
+        0.0
+    } else {
+        (t1 - t0) * 86_400.0
+    };
+    let fit = if pts.len() >= MIN_LIVE_POINTS && span_s >= MIN_LIVE_SPAN_S {
+        line_fit(&pts)
+    } else {
+        None
+    };
+    json!({
+        "rpm_per_day": fit.map_or(Value::Null, |f| r(f.0, 2)),
+        "sigma_rpm_per_day": fit.map_or(Value::Null, |f| r(f.1, 2)),
+        "weighting": fit.map(|f| if f.2 { "1/sigma^2" } else { "equal" }),
+        "points": pts.len(),
+        "span_h": r(span_s / 3600.0, 2),
+        "from": rfc3339(from),
+        "to": rfc3339(end),
+    })
+}
+
+/// One block per measured critical with live estimates: how many, how many said something, the
+/// latest informative one judged against the range, its trend over the last day of data, and how
+/// many windows saw an unbalance change instead of a critical shift.
+pub(crate) fn live_blocks(
+    store: &Store,
+    series: &[EstimateSeries],
+    range: Option<OperatingRange>,
+    rule: MarginRule,
+    band: f64,
+) -> Result<Vec<Value>> {
+    let mut out = Vec::new();
+    for s in series {
+        for a in &s.anchors {
+            let rows: Vec<&EstimateRow> = s.of(a.critical_id).collect();
+            if rows.is_empty() {
+                continue;
+            }
+            let model = store.model(a.critical_id).map_err(se)?;
+            let af = a.row.amplification_factor;
+            let latest = rows.iter().rev().find(|x| counts(x)).map(|x| {
+                let margin = range.map(|rg| {
+                    let m = assess(x.estimate_rpm, af, &rg, rule, band);
+                    json!({"side": side_name(m.side), "required_pct": r(m.required_pct, 2),
+                           "actual_pct": r(m.actual_pct, 2), "verdict": verdict_name(m.verdict)})
+                });
+                json!({
+                    "time": rfc3339(x.time), "unix_time": x.time,
+                    "speed_rpm": ro(x.speed_rpm, 1),
+                    "estimate_rpm": r(x.estimate_rpm, 1),
+                    "uncertainty_rpm": ro(x.uncertainty_rpm, 1),
+                    "method": x.method,
+                    "margin": margin,
+                })
+            });
+            out.push(json!({
+                "critical_id": a.critical_id,
+                "mode": s.mode,
+                "channel": s.channel,
+                "event": a.event_id,
+                "measured_rpm": r(a.row.speed_rpm, 1),
+                "amplification_factor": ro(af, 2),
+                "model": model.map(|m| json!({"natural_rpm": r(m.natural_rpm, 1), "damping_ratio": r(m.damping_ratio, 4)})),
+                "estimates": rows.len(),
+                "informative": rows.iter().filter(|x| counts(x)).count(),
+                "unbalance": rows.iter().filter(|x| x.change.as_deref() == Some(UNBALANCE)).count(),
+                "first": rows.first().map(|x| rfc3339(x.time)),
+                "last": rows.last().map(|x| rfc3339(x.time)),
+                "latest": latest,
+                "trend_24h": live_trend(&rows),
+            }));
+        }
+    }
+    Ok(out)
+}
+
+/// The SVG of a machine's live critical-speed estimates; an error naming the machine when it has
+/// none.
+pub(crate) fn plot(store: &Store, cfg: Option<&Config>, machine: &str) -> Result<String> {
+    let m = store
+        .machines()
+        .map_err(se)?
+        .into_iter()
+        .find(|x| x.id == machine)
+        .ok_or_else(|| anyhow!("no machine {machine:?} in the database"))?;
+    let (rule, _) = rule_for(cfg, machine);
+    let series = estimates::load(store, machine, |_| true)?;
+    estimates::render(&m, range_of(&m), rule, &series)
 }
 
 /// Per sensor channel: the 1X baseline at operating speed and the levels recommended from it.
@@ -419,6 +579,7 @@ pub(crate) fn text(doc: &Value) -> String {
             );
         }
     }
+    live_text(&mut s, doc["live_estimates"].as_array().unwrap_or(&empty));
     let _ = writeln!(s, "\nrecommended alarm settings:");
     for c in doc["recommended"]["channels"].as_array().unwrap_or(&empty) {
         let z = &c["zones"];
@@ -448,4 +609,57 @@ pub(crate) fn text(doc: &Value) -> String {
     let _ = writeln!(s, "\n{}", doc["toml"].as_str().unwrap_or(""));
     let _ = writeln!(s, "{}", doc["caution"].as_str().unwrap_or(CAUTION));
     s
+}
+
+/// The live-estimate blocks as text.
+fn live_text(s: &mut String, blocks: &[Value]) {
+    if blocks.is_empty() {
+        let _ = writeln!(s, "\nlive critical-speed estimates: none stored");
+        return;
+    }
+    let _ = writeln!(
+        s,
+        "\nlive critical-speed estimates (1X phase and amplitude at steady speed, single-mode model of the event):"
+    );
+    for b in blocks {
+        let _ = writeln!(
+            s,
+            "  mode {} channel {} (measured {} r/min in event {}): {} estimates, {} informative, {} unbalance (1X vector change, not a critical shift)",
+            b["mode"],
+            b["channel"].as_str().unwrap_or("?"),
+            fv(&b["measured_rpm"], 0),
+            b["event"],
+            b["estimates"],
+            b["informative"],
+            b["unbalance"]
+        );
+        let l = &b["latest"];
+        if l.is_null() {
+            let _ = writeln!(s, "    no informative estimate yet");
+        } else {
+            let m = &l["margin"];
+            let _ = writeln!(
+                s,
+                "    latest informative {}: running {} r/min, critical {} ± {} r/min, {} {} % vs {} % required: {}",
+                l["time"].as_str().unwrap_or("?"),
+                fv(&l["speed_rpm"], 0),
+                fv(&l["estimate_rpm"], 0),
+                fv(&l["uncertainty_rpm"], 0),
+                m["side"].as_str().unwrap_or("-"),
+                fv(&m["actual_pct"], 1),
+                fv(&m["required_pct"], 1),
+                m["verdict"].as_str().unwrap_or("-")
+            );
+        }
+        let t = &b["trend_24h"];
+        let _ = writeln!(
+            s,
+            "    trend over the last 24 h of data: {} ± {} r/min per day ({} informative over {} h; weights {})",
+            fv(&t["rpm_per_day"], 1),
+            fv(&t["sigma_rpm_per_day"], 1),
+            t["points"],
+            fv(&t["span_h"], 1),
+            t["weighting"].as_str().unwrap_or("-")
+        );
+    }
 }

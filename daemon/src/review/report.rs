@@ -1,8 +1,11 @@
 //! `veer report EVENT [--baseline EVENT]`: one self-contained HTML file: the summary, the plots as
 //! inline SVG, the margin table and the caution. No script, no style sheet or font from outside,
 //! no link: it opens offline and prints as it shows. With a baseline, both runs are overlaid on
-//! the Bode and polar plots and the changes are given in numbers.
+//! the Bode and polar plots and the changes are given in numbers. The live estimates made since
+//! from this event's criticals close it, as a plot over time and a table.
 
+use super::margins::live_blocks;
+use super::plot::estimates;
 use super::plot::style::escape;
 use super::plot::{self};
 use super::show::{document_of, matching};
@@ -13,7 +16,7 @@ use crate::report::CAUTION;
 use anyhow::{bail, Result};
 use serde_json::Value;
 use std::fmt::Write;
-use veer_storage::{Polar, Store};
+use veer_storage::{CriticalOrigin, Polar, Store};
 
 const STYLE: &str = "body{font-family:sans-serif;color:#202020;max-width:1040px;margin:24px auto;padding:0 16px;line-height:1.4}\
 h1{font-size:1.5em;margin-bottom:.2em}h2{font-size:1.2em;margin-top:1.6em;border-bottom:1px solid #ccc}\
@@ -256,6 +259,7 @@ pub(crate) fn render(
             escape(caption)
         );
     }
+    live(&mut h, store, &ev)?;
     let _ = writeln!(
         h,
         "<div class=\"caution\"><strong>Caution.</strong> {}</div>",
@@ -263,6 +267,58 @@ pub(crate) fn render(
     );
     let _ = writeln!(h, "</body></html>");
     Ok(h)
+}
+
+/// "Critical speeds since this event": the live estimates made from this event's criticals (with
+/// the model fitted on this event), as a plot over time and the latest informative estimate of
+/// each; one sentence when there are none.
+fn live(h: &mut String, store: &Store, ev: &EventData) -> Result<()> {
+    let _ = writeln!(h, "<h2>Critical speeds since this event</h2>");
+    let id = ev.id;
+    let series = estimates::load(store, &ev.machine.id, |c| {
+        c.origin == CriticalOrigin::Measured { event_id: id }
+    })?;
+    if series.iter().all(|s| s.rows.is_empty()) {
+        let _ = writeln!(
+            h,
+            "<p>No live estimates were made from this event's critical speeds (the machine has not yet run at steady speed since, or the event gave no fitted model).</p>"
+        );
+        return Ok(());
+    }
+    let svg = estimates::render(&ev.machine, ev.range, ev.rule, &series)?;
+    let _ = writeln!(
+        h,
+        "<figure>{}<figcaption>{}</figcaption></figure>",
+        inline(&svg),
+        escape("Live estimates of each critical speed measured in this event, over time: blue line, the estimate of informative windows with its ±2σ band; hollow grey: windows that did not constrain it; purple triangles: windows where the 1X vector left the model's locus (an unbalance change, not a critical shift); vermilion dashed: the critical as measured in this event; dark dashed: where the critical would enter the required separation margin; green: the operating range.")
+    );
+    let blocks = live_blocks(store, &series, ev.range, ev.rule, ev.band)?;
+    let _ = writeln!(h, "<table><tr><th class=\"l\">Channel</th><th>Mode</th><th>Measured, r/min</th><th>Estimates</th><th>Informative</th><th>Unbalance</th><th class=\"l\">Latest informative (UTC)</th><th>Running, r/min</th><th>Estimate, r/min</th><th>σ, r/min</th><th class=\"l\">Side</th><th>Required, %</th><th>Actual, %</th><th class=\"l\">Verdict</th><th>Trend (24 h), r/min/day</th></tr>");
+    for b in &blocks {
+        let l = &b["latest"];
+        let m = &l["margin"];
+        let _ = writeln!(
+            h,
+            "<tr><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td>{}<td>{}</td></tr>",
+            escape(b["channel"].as_str().unwrap_or("")),
+            b["mode"],
+            f(&b["measured_rpm"], 0),
+            b["estimates"],
+            b["informative"],
+            b["unbalance"],
+            escape(l["time"].as_str().unwrap_or("none yet")),
+            f(&l["speed_rpm"], 0),
+            f(&l["estimate_rpm"], 0),
+            f(&l["uncertainty_rpm"], 1),
+            escape(m["side"].as_str().unwrap_or("-")),
+            f(&m["required_pct"], 1),
+            f(&m["actual_pct"], 1),
+            verdict_cell(&m["verdict"]),
+            f(&b["trend_24h"]["rpm_per_day"], 1)
+        );
+    }
+    let _ = writeln!(h, "</table>");
+    Ok(())
 }
 
 /// The changes from the baseline, in numbers: each critical's speed and AF, and the 1X vector at

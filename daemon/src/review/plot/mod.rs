@@ -2,6 +2,7 @@
 //! stays text (the generic `sans-serif` family), so the plots scale cleanly on screen and in print.
 
 pub(crate) mod bode;
+pub(crate) mod estimates;
 pub(crate) mod order_map;
 pub(crate) mod polar;
 pub(crate) mod style;
