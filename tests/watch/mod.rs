@@ -12,6 +12,7 @@ mod bad_config;
 mod crash;
 mod daemon;
 mod db;
+mod estimates;
 mod folder;
 mod recordings;
 mod serial;
