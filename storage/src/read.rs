@@ -80,10 +80,10 @@ const CRITICAL_COLS: &str = "id, machine, mode, origin, event_id, channel, speed
      amplification_factor, damping_ratio, valid_from";
 
 const ESTIMATE_COLS: &str = "id, critical_id, time, estimate_rpm, uncertainty_rpm, informative, \
-     speed_rpm, natural_rpm, speed_ratio, method, reason, change_kind, locus_residual, revolutions";
+     channel, speed_rpm, natural_rpm, speed_ratio, method, reason, change_kind, locus_residual, revolutions";
 
 fn estimate_row(r: &Row<'_>) -> rusqlite::Result<Stored<EstimateRow>> {
-    let revolutions: Option<i64> = r.get(13)?;
+    let revolutions: Option<i64> = r.get(14)?;
     Ok(Stored {
         id: r.get(0)?,
         row: EstimateRow {
@@ -92,13 +92,14 @@ fn estimate_row(r: &Row<'_>) -> rusqlite::Result<Stored<EstimateRow>> {
             estimate_rpm: r.get(3)?,
             uncertainty_rpm: r.get(4)?,
             informative: r.get(5)?,
-            speed_rpm: r.get(6)?,
-            natural_rpm: r.get(7)?,
-            speed_ratio: r.get(8)?,
-            method: r.get(9)?,
-            reason: r.get(10)?,
-            change: r.get(11)?,
-            locus_residual: r.get(12)?,
+            channel: r.get(6)?,
+            speed_rpm: r.get(7)?,
+            natural_rpm: r.get(8)?,
+            speed_ratio: r.get(9)?,
+            method: r.get(10)?,
+            reason: r.get(11)?,
+            change: r.get(12)?,
+            locus_residual: r.get(13)?,
             revolutions: revolutions.and_then(|n| u64::try_from(n).ok()),
         },
     })
@@ -685,6 +686,26 @@ impl Tx<'_> {
         self.collect("read the latest critical models", &sql, [machine], |r| {
             Ok((critical_row(r)?, model_row_at(r, n)?))
         })
+    }
+
+    /// The id of the design critical of `machine` numbered `mode` now in force (its latest
+    /// design row): what a live estimate of a design critical is stored against.
+    pub fn design_critical_id(
+        &self,
+        machine: &str,
+        mode: u32,
+    ) -> Result<Option<i64>, StorageError> {
+        const OP: &str = "find a design critical";
+        self.conn
+            .prepare_cached(
+                "SELECT id FROM critical WHERE machine = ?1 AND mode = ?2 AND origin = 'design'
+                 ORDER BY valid_from DESC, id DESC LIMIT 1",
+            )
+            .and_then(|mut st| {
+                st.query_row(params![machine, mode], |r| r.get(0))
+                    .optional()
+            })
+            .map_err(self.sql(OP))
     }
 
     /// The id of the measured critical of `machine` found on `channel` as mode `mode` with

@@ -408,6 +408,8 @@ pub struct EstimateRow {
     pub uncertainty_rpm: Option<f64>,
     /// Whether the data constrained the estimate at all (a flat speed gives no information).
     pub informative: bool,
+    /// Channel whose 1X vector the estimate was made from.
+    pub channel: Option<String>,
     /// Mean running speed over the window, r/min.
     pub speed_rpm: Option<f64>,
     /// Estimated natural speed of the mode (90° of lag), r/min.

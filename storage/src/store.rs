@@ -482,6 +482,15 @@ impl Store {
             .measured_critical_id(machine, channel, mode, valid_from)
     }
 
+    /// See [`Tx::design_critical_id`].
+    pub fn design_critical_id(
+        &self,
+        machine: &str,
+        mode: u32,
+    ) -> Result<Option<i64>, StorageError> {
+        self.view().design_critical_id(machine, mode)
+    }
+
     /// Records the model of a measured critical (see [`Tx::insert_model`]).
     pub fn insert_model(&mut self, m: &ModelRow) -> Result<(), StorageError> {
         self.transaction(|tx| tx.insert_model(m))

@@ -506,9 +506,9 @@ impl<'a> Tx<'a> {
         self.conn
             .prepare_cached(
                 "INSERT INTO critical_estimate (critical_id, time, estimate_rpm, uncertainty_rpm,
-                   informative, speed_rpm, natural_rpm, speed_ratio, method, reason, change_kind,
-                   locus_residual, revolutions)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13)",
+                   informative, channel, speed_rpm, natural_rpm, speed_ratio, method, reason,
+                   change_kind, locus_residual, revolutions)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14)",
             )
             .and_then(|mut st| {
                 st.execute(params![
@@ -517,6 +517,7 @@ impl<'a> Tx<'a> {
                     e.estimate_rpm,
                     e.uncertainty_rpm,
                     e.informative,
+                    e.channel,
                     e.speed_rpm,
                     e.natural_rpm,
                     e.speed_ratio,

@@ -14,6 +14,7 @@ CREATE TABLE critical_model (
     fit_residual         REAL
 );
 
+ALTER TABLE critical_estimate ADD COLUMN channel TEXT;
 ALTER TABLE critical_estimate ADD COLUMN speed_rpm REAL;
 ALTER TABLE critical_estimate ADD COLUMN natural_rpm REAL;
 ALTER TABLE critical_estimate ADD COLUMN speed_ratio REAL;

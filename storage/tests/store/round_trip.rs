@@ -307,6 +307,7 @@ fn criticals_keep_their_history() {
         estimate_rpm: 1185.0,
         uncertainty_rpm: Some(12.5),
         informative: true,
+        channel: Some("x".into()),
         speed_rpm: Some(1000.0),
         natural_rpm: Some(1150.0),
         speed_ratio: Some(1000.0 / 1150.0),
@@ -405,6 +406,24 @@ fn critical_models_and_estimate_lookup() {
             .expect("find"),
         None
     );
+    assert_eq!(s.design_critical_id("fan-2", 1).expect("find"), None);
+    let d1 = s
+        .add_critical(&CriticalRow {
+            origin: CriticalOrigin::Design,
+            channel: None,
+            ..crit("x", 1, 1210.0, 0.0)
+        })
+        .expect("design");
+    let d2 = s
+        .add_critical(&CriticalRow {
+            origin: CriticalOrigin::Design,
+            channel: None,
+            ..crit("x", 1, 1250.0, 100.0)
+        })
+        .expect("design edited");
+    assert_ne!(d1, d2);
+    assert_eq!(s.design_critical_id("fan-2", 1).expect("find"), Some(d2));
+    assert_eq!(s.design_critical_id("fan-2", 2).expect("find"), None);
     let est = EstimateRow {
         critical_id: y,
         time: 1000.0,
