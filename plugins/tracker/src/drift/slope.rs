@@ -15,7 +15,8 @@
 //! Assumptions: one dominant mode, unbalance and background steady over the window, the background
 //! small against the mode's response (a large constant vector flattens the measured lag's slope).
 
-use super::estimate::{Method, NotInformative};
+use super::classify::Change;
+use super::estimate::{Estimate, Method, NotInformative};
 use super::model::phase_slope;
 use super::DriftError;
 use crate::Complex64;
@@ -175,6 +176,33 @@ pub struct SlopeEstimate {
     pub reason: Option<NotInformative>,
     /// Always [`Method::Slope`]; present so slope and phase estimates can be reported alike.
     pub method: Method,
+    /// Revolutions in the window.
+    pub revolutions: usize,
+}
+
+impl SlopeEstimate {
+    /// The estimate in the form the phase estimator gives, for reporting and for
+    /// [`super::DriftAlert`]: the slope measures no vector against a model, so the classification
+    /// is [`Change::None`], the locus residual 0 and the vector zero.
+    pub fn to_estimate(&self) -> Estimate {
+        Estimate {
+            time_s: self.time_s,
+            rpm: self.rpm,
+            revolutions: self.revolutions,
+            natural_rpm: self.natural_rpm,
+            sigma_rpm: self.sigma_rpm,
+            ratio: self.ratio,
+            informative: self.informative,
+            reason: self.reason,
+            method: self.method,
+            by_phase: None,
+            by_amplitude: None,
+            sensitivity_deg_per_pct: self.slope.to_degrees() / 100.0,
+            locus_residual: 0.0,
+            change: Change::None,
+            vector: Complex64::new(0.0, 0.0),
+        }
+    }
 }
 
 /// Regression sums over the basis `[1, u, τ, u²]`: `u = 100·ln(N/N_ref)` (percent, for
@@ -338,6 +366,7 @@ impl SlopeEstimator {
             informative: reason.is_none(),
             reason,
             method: Method::Slope,
+            revolutions: n as usize,
         }
     }
 }
