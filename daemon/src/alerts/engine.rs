@@ -156,6 +156,26 @@ impl AlertEngine {
         }
     }
 
+    /// Stops the estimate rule of `key` (a configured critical that a measured one now stands
+    /// for): an open critical-approach alert of it is cleared, since nothing will judge it again.
+    pub fn untrack_critical(&mut self, key: &str, by: &str) {
+        if self.estimates.remove(key).is_none() {
+            return;
+        }
+        if self.is_open(AlertKind::CriticalApproach, key) {
+            let note = super::describe::Note {
+                message: format!(
+                    "cleared: critical {key} is now estimated as the measured critical {by}"
+                ),
+                evidence: json!({ "key": key, "superseded_by": by }),
+            };
+            let t = self.last_time_s;
+            if let Some(change) = self.force_clear(AlertKind::CriticalApproach, key, t, &note) {
+                self.pending.push(change);
+            }
+        }
+    }
+
     /// One window's live estimate of tracked critical `key` (measured at `measured_rpm` with
     /// `af` by its event), with what the event's model predicts at the window's speed, for the
     /// vector-change evidence.
@@ -184,20 +204,27 @@ impl AlertEngine {
             vector: Some((e.vector.norm(), veer_tracker::lag_deg(e.vector))),
             expected: Some((expected.norm(), veer_tracker::lag_deg(expected))),
         };
+        // A window is an average over its whole length: its condition counts as holding from
+        // the window's start to its end, so the delay is met by one window at least as long.
+        let span = e.revolutions as f64 * 60.0 / e.rpm;
+        let span = if span.is_finite() && span > 0.0 {
+            span
+        } else {
+            0.0
+        };
+        let (t0, t1) = (e.time_s - 0.5 * span, e.time_s + 0.5 * span);
         match judgement {
             Judgement::VectorChange { .. } => {
-                out.extend(self.judge(
-                    AlertKind::VectorChange,
-                    key,
-                    e.time_s,
-                    Some(Severity::Warning),
-                    false,
-                    &vc,
-                ));
+                let raw = Some(Severity::Warning);
+                for t in [t0, t1] {
+                    out.extend(self.judge(AlertKind::VectorChange, key, t, raw, false, &vc));
+                }
             }
             Judgement::NotInformative => {}
             Judgement::Assessed(a) => {
-                out.extend(self.judge(AlertKind::VectorChange, key, e.time_s, None, true, &vc));
+                for t in [t0, t1] {
+                    out.extend(self.judge(AlertKind::VectorChange, key, t, None, true, &vc));
+                }
                 let f = ApproachFinding {
                     key: key.to_string(),
                     measured_rpm,
@@ -207,14 +234,10 @@ impl AlertEngine {
                     rule: s.rule.name(),
                     hysteresis_pct: s.hysteresis_pct,
                 };
-                out.extend(self.judge(
-                    AlertKind::CriticalApproach,
-                    key,
-                    e.time_s,
-                    f.raw(),
-                    f.recovered(),
-                    &f,
-                ));
+                let (raw, recovered) = (f.raw(), f.recovered());
+                for t in [t0, t1] {
+                    out.extend(self.judge(AlertKind::CriticalApproach, key, t, raw, recovered, &f));
+                }
             }
         }
         out

@@ -4,4 +4,5 @@ pub(crate) mod convert;
 pub(crate) mod health;
 pub(crate) mod models;
 pub(crate) mod runner;
+pub(crate) mod targets;
 pub(crate) mod types;

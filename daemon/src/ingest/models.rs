@@ -1,5 +1,5 @@
-//! The criticals the daemon tracks between run-ups, each with the single-mode model its event
-//! fitted, and the live estimator that inverts the model at steady speed.
+//! The measured criticals the daemon tracks between run-ups, each with the single-mode model its
+//! event fitted.
 //!
 //! A model comes from a run-up or coast-down whose resonance fit was good; it is stored with its
 //! critical so that the estimates resume after a restart. Each (channel, mode) has one model in
@@ -7,7 +7,7 @@
 
 use super::convert::polar;
 use veer_storage::{CriticalRow, ModelRow, Polar, Stored};
-use veer_tracker::drift::{CriticalModel, Estimate, Estimator, EstimatorConfig};
+use veer_tracker::drift::CriticalModel;
 use veer_tracker::engine::Event;
 use veer_tracker::{from_amp_lag, Complex64};
 
@@ -21,7 +21,7 @@ const MAX_FIT_RESIDUAL: f64 = 0.1;
 /// each estimate's uncertainty that averaging cannot remove. The simulated fan's fits land within
 /// 2.3 % of its damping ratio (run-up 0.0758 and coast-down 0.0788 against 0.077); without this
 /// term the estimates' errors were some six times their stated σ.
-const DAMPING_MODEL_PCT: f64 = 3.0;
+pub(crate) const DAMPING_MODEL_PCT: f64 = 3.0;
 
 /// One measured critical with its fitted model.
 #[derive(Clone, Debug, PartialEq)]
@@ -117,40 +117,4 @@ pub(crate) fn models_of(ev: &Event, t0_unix: f64) -> Vec<TrackedModel> {
         }
     }
     out
-}
-
-/// A model and its live estimator, fed the 1X vector of every steady revolution of its channel.
-#[derive(Clone, Debug)]
-pub(crate) struct Tracker {
-    pub tracked: TrackedModel,
-    /// Index of the channel among the runner's channels.
-    pub channel_index: usize,
-    estimator: Estimator,
-}
-
-impl Tracker {
-    /// A tracker of `tracked` on channel `channel_index` with windows of `window_s`.
-    pub fn new(tracked: TrackedModel, channel_index: usize, window_s: f64) -> Option<Self> {
-        let cfg = EstimatorConfig {
-            window_s,
-            damping_model_pct: DAMPING_MODEL_PCT,
-            ..EstimatorConfig::default()
-        };
-        let estimator = Estimator::new(tracked.model.clone(), cfg).ok()?;
-        Some(Self {
-            tracked,
-            channel_index,
-            estimator,
-        })
-    }
-
-    /// One steady revolution (time unix s, speed r/min, raw 1X vector).
-    pub fn push(&mut self, time_s: f64, rpm: f64, v: Complex64) -> Option<Estimate> {
-        self.estimator.push(time_s, rpm, v)
-    }
-
-    /// Drops the window in progress (the speed left steady state, or the tach was lost).
-    pub fn reset(&mut self) {
-        self.estimator.reset();
-    }
 }

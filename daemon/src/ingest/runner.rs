@@ -7,7 +7,8 @@
 
 use super::convert::{event_record, polar, EventRecord};
 use super::health::{ChannelHealth, Condition};
-use super::models::{TrackedModel, Tracker};
+use super::models::TrackedModel;
+use super::targets::{design_tracks, Target, Tracker};
 use crate::config::model::Machine;
 use anyhow::{anyhow, Result};
 use veer_storage::TrendRow;
@@ -44,7 +45,7 @@ pub(crate) enum Observation {
     },
     /// One window's live estimate of a tracked critical, at steady speed.
     Estimate {
-        tracked: Box<TrackedModel>,
+        target: Box<Target>,
         estimate: veer_tracker::drift::Estimate,
     },
     /// A machine-state change.
@@ -156,12 +157,27 @@ impl Runner {
             trackers: Vec::new(),
             estimate_window_s,
         };
+        if let Some(window_s) = runner.estimate_window_s {
+            for d in design_tracks(machine) {
+                let target = Target::Design(d);
+                if models.iter().any(|m| target.superseded_by(m)) {
+                    continue;
+                }
+                let Some(c) = runner.channels.iter().position(|n| n == target.channel()) else {
+                    continue;
+                };
+                if let Some(t) = Tracker::new(target, c, window_s) {
+                    runner.trackers.push(t);
+                }
+            }
+        }
         runner.track(models);
         Ok(runner)
     }
 
     /// Starts (or restarts) the estimators of `models`, each replacing the tracker of its channel
-    /// and mode; models of channels this runner does not have are left out.
+    /// and mode (and the slope tracker of a configured critical it stands for); models of
+    /// channels this runner does not have are left out.
     fn track(&mut self, models: &[TrackedModel]) {
         let Some(window_s) = self.estimate_window_s else {
             return;
@@ -170,9 +186,8 @@ impl Runner {
             let Some(c) = self.channels.iter().position(|n| *n == m.channel) else {
                 continue;
             };
-            self.trackers
-                .retain(|t| !(t.tracked.channel == m.channel && t.tracked.mode == m.mode));
-            if let Some(t) = Tracker::new(m.clone(), c, window_s) {
+            self.trackers.retain(|t| !t.target.superseded_by(m));
+            if let Some(t) = Tracker::new(Target::Model(m.clone()), c, window_s) {
                 self.trackers.push(t);
             }
         }
@@ -317,7 +332,7 @@ impl Runner {
                     let v = r.vectors[tr.channel_index * k + k1];
                     if let Some(estimate) = tr.push(t, r.speed_rpm, v) {
                         out.push(Observation::Estimate {
-                            tracked: Box::new(tr.tracked.clone()),
+                            target: Box::new(tr.target.clone()),
                             estimate,
                         });
                     }

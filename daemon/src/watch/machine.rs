@@ -14,6 +14,7 @@ use crate::ingest::convert::EventRecord;
 use crate::ingest::health::Condition;
 use crate::ingest::models::TrackedModel;
 use crate::ingest::runner::{Observation, Runner};
+use crate::ingest::targets::{design_tracks, Target};
 use crate::ingest::types::StreamEvent;
 use crate::timefmt;
 use anyhow::{anyhow, Context, Result};
@@ -152,7 +153,14 @@ impl Worker {
             .map(|s| (s.channel.clone(), s.warning_1x, s.alarm_1x))
             .collect();
         let known = known_criticals(&machine);
-        let alerts = AlertEngine::new(&machine.id, &machine.alerts, range, &sensors, known.clone());
+        let mut alerts =
+            AlertEngine::new(&machine.id, &machine.alerts, range, &sensors, known.clone());
+        if machine.alerts.estimate_critical {
+            for d in design_tracks(&machine) {
+                let t = Target::Design(d);
+                alerts.track_critical(&t.key(), t.critical_factor(), t.af());
+            }
+        }
         Self {
             machine,
             daemon,
@@ -172,6 +180,12 @@ impl Worker {
         self.models
             .retain(|k| !(k.channel == m.channel && k.mode == m.mode));
         self.models.push(m.clone());
+        for d in design_tracks(&self.machine) {
+            let t = Target::Design(d);
+            if t.superseded_by(m) {
+                self.alerts.untrack_critical(&t.key(), &m.key());
+            }
+        }
         self.alerts
             .track_critical(&m.key(), m.critical_factor(), m.af);
     }
@@ -334,19 +348,18 @@ impl Worker {
                     }
                     into.events.push(*rec);
                 }
-                Observation::Estimate { tracked, estimate } => {
-                    let expected = tracked.model.predict(estimate.rpm);
+                Observation::Estimate { target, estimate } => {
                     let ch = self.alerts.on_estimate(
-                        &tracked.key(),
-                        &tracked.channel,
-                        tracked.critical_rpm,
-                        tracked.af,
+                        &target.key(),
+                        target.channel(),
+                        target.critical_rpm(),
+                        target.af(),
                         &estimate,
-                        expected,
+                        target.expected(estimate.rpm),
                     );
                     self.alert_changes(ch);
                     into.estimates
-                        .push(EstimateRecord::new(&self.machine.id, &tracked, &estimate));
+                        .push(EstimateRecord::new(&self.machine.id, &target, &estimate));
                 }
                 Observation::Trend(rows) => into.trend.extend(rows),
                 Observation::Health {

@@ -8,6 +8,7 @@
 
 use crate::ingest::convert::EventRecord;
 use crate::ingest::models::TrackedModel;
+use crate::ingest::targets::Target;
 use anyhow::{Context, Result};
 use std::collections::HashMap;
 use std::path::PathBuf;
@@ -35,35 +36,60 @@ pub(crate) struct FileResult {
     pub finished_at: f64,
 }
 
-/// A live estimate with what names its critical row: the row is found by machine, channel, mode
-/// and the end of the critical's event (the writer stores events before the estimates they feed).
+/// Which critical row an estimate belongs to.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) enum CriticalRef {
+    /// The measured critical found on `channel` as `mode` by the event ending at `valid_from`.
+    Measured {
+        channel: String,
+        mode: u32,
+        valid_from: f64,
+    },
+    /// The configured critical numbered `mode`, as now in force.
+    Design { mode: u32 },
+}
+
+/// A live estimate with what names its critical row (the writer stores events before the
+/// estimates they feed, so the row is there to be found).
 #[derive(Clone, Debug)]
 pub(crate) struct EstimateRecord {
     pub machine: String,
-    pub channel: String,
-    pub mode: u32,
-    pub valid_from: f64,
+    pub critical: CriticalRef,
     /// The row, its `critical_id` filled in by the writer.
     pub row: EstimateRow,
 }
 
 impl EstimateRecord {
-    /// The row of one window's estimate of `tracked` on `machine`: the natural speed turned into
-    /// the critical speed as its event measured it.
-    pub(crate) fn new(machine: &str, tracked: &TrackedModel, e: &Estimate) -> Self {
-        let factor = tracked.critical_factor();
+    /// The row of one window's estimate of `target` on `machine`: the natural speed turned into
+    /// the critical speed as the critical table holds it.
+    pub(crate) fn new(machine: &str, target: &Target, e: &Estimate) -> Self {
+        let factor = target.critical_factor();
         let finite = |v: f64| v.is_finite().then_some(v);
+        let critical = match target {
+            Target::Model(m) => CriticalRef::Measured {
+                channel: m.channel.clone(),
+                mode: m.mode,
+                valid_from: m.valid_from,
+            },
+            Target::Design(d) => CriticalRef::Design { mode: d.mode },
+        };
+        let estimate_rpm = e.natural_rpm * factor;
         Self {
             machine: machine.to_string(),
-            channel: tracked.channel.clone(),
-            mode: tracked.mode,
-            valid_from: tracked.valid_from,
+            critical,
             row: EstimateRow {
                 critical_id: 0,
                 time: e.time_s,
-                estimate_rpm: e.natural_rpm * factor,
+                // A slope with no solution leaves no number: the row keeps the configured value,
+                // marked not informative.
+                estimate_rpm: if estimate_rpm.is_finite() {
+                    estimate_rpm
+                } else {
+                    target.critical_rpm()
+                },
                 uncertainty_rpm: finite(e.sigma_rpm * factor),
-                informative: e.informative,
+                informative: e.informative && estimate_rpm.is_finite(),
+                channel: Some(target.channel().to_string()),
                 speed_rpm: finite(e.rpm),
                 natural_rpm: finite(e.natural_rpm),
                 speed_ratio: finite(e.ratio),
@@ -270,24 +296,33 @@ fn store_events(tx: &Tx<'_>, ingest_id: Option<i64>, events: &[EventRecord]) -> 
 /// Stores estimates, each against its critical row; an estimate whose critical is not stored
 /// (its event failed to store) is logged and dropped rather than failing the batch.
 fn store_estimates(tx: &Tx<'_>, estimates: &[EstimateRecord]) -> Result<()> {
-    let mut ids: HashMap<(String, String, u32, u64), Option<i64>> = HashMap::new();
+    let mut ids: HashMap<String, Option<i64>> = HashMap::new();
     for e in estimates {
-        let k = (
-            e.machine.clone(),
-            e.channel.clone(),
-            e.mode,
-            e.valid_from.to_bits(),
-        );
+        let k = match &e.critical {
+            CriticalRef::Measured {
+                channel,
+                mode,
+                valid_from,
+            } => format!("{}|{channel}|{mode}|{}", e.machine, valid_from.to_bits()),
+            CriticalRef::Design { mode } => format!("{}|design|{mode}", e.machine),
+        };
         let id = match ids.get(&k) {
             Some(id) => *id,
             None => {
-                let id = tx.measured_critical_id(&e.machine, &e.channel, e.mode, e.valid_from)?;
+                let id = match &e.critical {
+                    CriticalRef::Measured {
+                        channel,
+                        mode,
+                        valid_from,
+                    } => tx.measured_critical_id(&e.machine, channel, *mode, *valid_from)?,
+                    CriticalRef::Design { mode } => tx.design_critical_id(&e.machine, *mode)?,
+                };
                 ids.insert(k, id);
                 id
             }
         };
         let Some(critical_id) = id else {
-            tracing::warn!(machine = %e.machine, channel = %e.channel, mode = e.mode, "estimate of a critical that is not stored; dropped");
+            tracing::warn!(machine = %e.machine, critical = ?e.critical, "estimate of a critical that is not stored; dropped");
             continue;
         };
         tx.insert_estimate(&EstimateRow {

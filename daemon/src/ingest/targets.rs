@@ -1,0 +1,214 @@
+//! What the daemon estimates between run-ups, and the estimator each target gets.
+//!
+//! A measured critical with a good fit is estimated from the lag (and amplitude) of the 1X vector
+//! against its model ([`Estimator`]). A critical known only from the configuration (design,
+//! shop test) with an AF is estimated from the slope of the lag against the small wander of the
+//! running speed ([`SlopeEstimator`]), which needs no run-up: only the damping ratio, taken as
+//! `1/(2·AF)` (API RP 684's AF of a single mode, `AF ≈ 1/(2ζ)`), and which side of the running
+//! speed the critical lies on. The slope estimate is dropped on a channel once a run-up there has
+//! measured a critical near it: the model's estimate is far more precise.
+
+use super::models::{TrackedModel, DAMPING_MODEL_PCT};
+use crate::config::model::Machine;
+use veer_tracker::drift::{Estimate, Estimator, EstimatorConfig, SlopeConfig, SlopeEstimator};
+use veer_tracker::margin::{actual_margin_pct, Side};
+use veer_tracker::Complex64;
+
+/// A configured critical this close to a measured one (percent of its speed) is taken to be the
+/// same mode: the measured one's model then stands for it (the same bound the shift rule uses to
+/// match criticals).
+const SAME_MODE_PCT: f64 = 25.0;
+
+/// Length of a slope window, s: it must hold several cycles of the speed's wander.
+const SLOPE_WINDOW_S: f64 = 600.0;
+
+/// A configured critical estimated on one channel from the slope of the lag.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) struct DesignTrack {
+    /// Channel.
+    pub channel: String,
+    /// Its number in the configuration's list (1 for the first): its mode in the critical table.
+    pub mode: u32,
+    /// The key of the known critical (`design-1`, `shop-test-2`, ...).
+    pub name: String,
+    /// Its configured speed, r/min.
+    pub rpm: f64,
+    /// Its AF.
+    pub af: f64,
+    /// Whether the machine runs below it.
+    pub below_critical: bool,
+}
+
+impl DesignTrack {
+    /// Damping ratio from the AF of a single mode, `ζ = 1/(2·AF)` (API RP 684; common practice).
+    pub fn damping_ratio(&self) -> f64 {
+        0.5 / self.af
+    }
+
+    /// The critical (amplitude peak) over the natural speed, `1/√(1 − 2ζ²)` (Rao §3.7).
+    pub fn critical_factor(&self) -> f64 {
+        let z = self.damping_ratio();
+        1.0 / (1.0 - 2.0 * z * z).max(1e-6).sqrt()
+    }
+}
+
+/// The configured criticals of `machine` that can be estimated by the slope on each sensor:
+/// those with an AF above 1 (so that `ζ < 0.5`) and outside the operating range.
+pub(crate) fn design_tracks(machine: &Machine) -> Vec<DesignTrack> {
+    let range = machine.operating_range();
+    let mut out = Vec::new();
+    for s in &machine.sensors {
+        for (i, c) in machine.criticals.iter().enumerate() {
+            let Some(af) = c.af.filter(|a| a.is_finite() && *a > 1.0) else {
+                continue;
+            };
+            let (side, _) = actual_margin_pct(c.rpm, &range);
+            if side == Side::Inside {
+                continue;
+            }
+            out.push(DesignTrack {
+                channel: s.channel.clone(),
+                mode: i as u32 + 1,
+                name: format!("{}-{}", c.origin.name(), i + 1),
+                rpm: c.rpm,
+                af,
+                below_critical: side == Side::Above,
+            });
+        }
+    }
+    out
+}
+
+/// What an estimate is about.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) enum Target {
+    /// A measured critical and its model.
+    Model(TrackedModel),
+    /// A configured critical, by the slope.
+    Design(DesignTrack),
+}
+
+impl Target {
+    /// Channel of the vectors.
+    pub fn channel(&self) -> &str {
+        match self {
+            Target::Model(m) => &m.channel,
+            Target::Design(d) => &d.channel,
+        }
+    }
+
+    /// The key its alerts carry: `channel:mode` for a measured critical, `channel:design-1` for
+    /// a configured one.
+    pub fn key(&self) -> String {
+        match self {
+            Target::Model(m) => m.key(),
+            Target::Design(d) => format!("{}:{}", d.channel, d.name),
+        }
+    }
+
+    /// Critical speed over natural speed.
+    pub fn critical_factor(&self) -> f64 {
+        match self {
+            Target::Model(m) => m.critical_factor(),
+            Target::Design(d) => d.critical_factor(),
+        }
+    }
+
+    /// The critical's speed as known before the estimates, r/min.
+    pub fn critical_rpm(&self) -> f64 {
+        match self {
+            Target::Model(m) => m.critical_rpm,
+            Target::Design(d) => d.rpm,
+        }
+    }
+
+    /// Its AF.
+    pub fn af(&self) -> Option<f64> {
+        match self {
+            Target::Model(m) => m.af,
+            Target::Design(d) => Some(d.af),
+        }
+    }
+
+    /// The 1X vector its model predicts at `rpm` (zero for a configured critical: no model).
+    pub fn expected(&self, rpm: f64) -> Complex64 {
+        match self {
+            Target::Model(m) => m.model.predict(rpm),
+            Target::Design(_) => Complex64::new(0.0, 0.0),
+        }
+    }
+
+    /// Whether a measured model `m` stands for this target (the same one, or a configured
+    /// critical of the same mode on the same channel).
+    pub fn superseded_by(&self, m: &TrackedModel) -> bool {
+        match self {
+            Target::Model(t) => t.channel == m.channel && t.mode == m.mode,
+            Target::Design(d) => {
+                d.channel == m.channel
+                    && ((m.critical_rpm - d.rpm) / d.rpm * 100.0).abs() <= SAME_MODE_PCT
+            }
+        }
+    }
+}
+
+/// The estimator of a target.
+#[derive(Clone, Debug)]
+enum Method {
+    Model(Box<Estimator>),
+    Slope(Box<SlopeEstimator>),
+}
+
+/// A target and its live estimator, fed the 1X vector of every steady revolution of its channel.
+#[derive(Clone, Debug)]
+pub(crate) struct Tracker {
+    pub target: Target,
+    /// Index of the channel among the runner's channels.
+    pub channel_index: usize,
+    method: Method,
+}
+
+impl Tracker {
+    /// A tracker of `target` on channel `channel_index`, with model windows of `window_s`.
+    pub fn new(target: Target, channel_index: usize, window_s: f64) -> Option<Self> {
+        let method = match &target {
+            Target::Model(m) => {
+                let cfg = EstimatorConfig {
+                    window_s,
+                    damping_model_pct: DAMPING_MODEL_PCT,
+                    ..EstimatorConfig::default()
+                };
+                Method::Model(Box::new(Estimator::new(m.model.clone(), cfg).ok()?))
+            }
+            Target::Design(d) => {
+                let cfg = SlopeConfig {
+                    window_s: SLOPE_WINDOW_S.max(window_s),
+                    damping_ratio: d.damping_ratio(),
+                    below_critical: d.below_critical,
+                    ..SlopeConfig::default()
+                };
+                Method::Slope(Box::new(SlopeEstimator::new(cfg).ok()?))
+            }
+        };
+        Some(Self {
+            target,
+            channel_index,
+            method,
+        })
+    }
+
+    /// One steady revolution (time unix s, speed r/min, raw 1X vector).
+    pub fn push(&mut self, time_s: f64, rpm: f64, v: Complex64) -> Option<Estimate> {
+        match &mut self.method {
+            Method::Model(e) => e.push(time_s, rpm, v),
+            Method::Slope(e) => e.push(time_s, rpm, v).map(|s| s.to_estimate()),
+        }
+    }
+
+    /// Drops the window in progress (the speed left steady state, or the tach was lost).
+    pub fn reset(&mut self) {
+        match &mut self.method {
+            Method::Model(e) => e.reset(),
+            Method::Slope(e) => e.reset(),
+        }
+    }
+}
