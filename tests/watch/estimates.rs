@@ -464,4 +464,19 @@ fn a_design_critical_is_estimated_from_the_wander_without_a_run_up() {
         // Stored as the critical (amplitude peak) the design value is given as.
         assert!((e.estimate_rpm / (nn * peak) - 1.0).abs() < 0.005, "{e:?}");
     }
+    // `veer status` gives the latest informative estimate with its margin to the range.
+    let doc = d.json(&["status", "--db", "veer.db", "--json"]);
+    let live = &doc["machines"][0]["live_estimates"];
+    let latest = informative.last().expect("an informative estimate");
+    assert_eq!(live.as_array().map(Vec::len), Some(1), "{doc}");
+    assert!(
+        (num(&live[0], "estimate_rpm") - latest.estimate_rpm).abs() < 0.01,
+        "{doc}"
+    );
+    assert_eq!(live[0]["method"], "slope", "{doc}");
+    let actual = num(&live[0]["margin_to_operating_range"], "actual_pct");
+    assert!(
+        (actual - (latest.estimate_rpm / MAX_RPM - 1.0) * 100.0).abs() < 0.01,
+        "{doc}"
+    );
 }

@@ -103,6 +103,7 @@ pub(crate) fn document(store: &Store, cfg: Option<&crate::config::Config>) -> Re
                 "margin_at_running_speed": at_speed, "margin_to_operating_range": to_range,
             }));
         }
+        let live = live_estimates(store, &m.id, last, range, rule, band)?;
         let alerts: Vec<Value> = store
             .open_alerts(Some(&m.id))
             .map_err(e)?
@@ -119,10 +120,63 @@ pub(crate) fn document(store: &Store, cfg: Option<&crate::config::Config>) -> Re
             "last_data": last.map(rfc3339),
             "last_data_age_s": last.map(|t| (now() - t).round()),
             "criticals": crits,
+            "live_estimates": live,
             "open_alerts": alerts,
         }));
     }
     Ok(json!({"machines": machines, "caution": CAUTION}))
+}
+
+/// How far back from the machine's last data the latest live estimates are looked for, s.
+const LIVE_LOOKBACK_S: f64 = 86_400.0;
+
+/// The latest informative live estimate of each critical and channel from the day before the
+/// machine's last data, with its margin to the operating range.
+fn live_estimates(
+    store: &Store,
+    machine: &str,
+    last: Option<f64>,
+    range: Option<OperatingRange>,
+    rule: MarginRule,
+    band: f64,
+) -> Result<Vec<Value>> {
+    let Some(last) = last else {
+        return Ok(Vec::new());
+    };
+    let e = |e: veer_storage::StorageError| anyhow!("{e}");
+    let rows = store
+        .machine_estimates(machine, last - LIVE_LOOKBACK_S, f64::INFINITY)
+        .map_err(e)?;
+    let mut latest: std::collections::BTreeMap<(i64, Option<String>), &veer_storage::EstimateRow> =
+        std::collections::BTreeMap::new();
+    for r in rows.iter().filter(|r| r.informative) {
+        latest.insert((r.critical_id, r.channel.clone()), &r.row);
+    }
+    let criticals = store.criticals(machine).map_err(e)?;
+    let mut out = Vec::new();
+    for ((id, channel), r) in latest {
+        let Some(c) = criticals.iter().find(|c| c.id == id) else {
+            continue;
+        };
+        let origin = match c.origin {
+            CriticalOrigin::Design => "design".to_string(),
+            CriticalOrigin::Measured { event_id } => format!("measured (event {event_id})"),
+        };
+        let to_range = range.map(|rg| {
+            let a = assess(r.estimate_rpm, c.amplification_factor, &rg, rule, band);
+            json!({"side": side_name(a.side), "required_pct": round2(a.required_pct),
+                   "actual_pct": round2(a.actual_pct), "verdict": verdict_name(a.verdict)})
+        });
+        out.push(json!({
+            "mode": c.mode, "origin": origin, "channel": channel,
+            "critical_rpm": round2(c.speed_rpm),
+            "estimate_rpm": round2(r.estimate_rpm),
+            "uncertainty_rpm": r.uncertainty_rpm.map(round2),
+            "method": r.method, "at": rfc3339(r.time),
+            "margin_to_operating_range": to_range,
+        }));
+    }
+    Ok(out)
 }
 
 fn round2(x: f64) -> f64 {
@@ -158,6 +212,22 @@ pub(crate) fn text(doc: &Value) -> String {
                 c["origin"].as_str().unwrap_or(""),
                 describe(at),
                 describe(rg)
+            );
+        }
+        for l in m["live_estimates"].as_array().unwrap_or(&empty) {
+            let _ = writeln!(
+                s,
+                "  estimate {:>7.0} ± {} r/min of the {} critical {:.0} r/min on {} by {} at {}: to range: {}",
+                l["estimate_rpm"].as_f64().unwrap_or(f64::NAN),
+                l["uncertainty_rpm"]
+                    .as_f64()
+                    .map_or("-".into(), |v| format!("{v:.0}")),
+                l["origin"].as_str().unwrap_or(""),
+                l["critical_rpm"].as_f64().unwrap_or(f64::NAN),
+                l["channel"].as_str().unwrap_or("-"),
+                l["method"].as_str().unwrap_or("-"),
+                l["at"].as_str().unwrap_or(""),
+                describe(&l["margin_to_operating_range"])
             );
         }
         let alerts = m["open_alerts"].as_array().unwrap_or(&empty);
