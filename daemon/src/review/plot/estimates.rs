@@ -481,11 +481,19 @@ where
             }
         }
     }
+    // Enough decimals that ticks a fraction of an hour apart read apart.
+    let decimals = if p.xmax >= 10.0 {
+        0
+    } else if p.xmax >= 1.0 {
+        1
+    } else {
+        2
+    };
     chart
         .configure_mesh()
         .x_desc(format!("Hours from {} (UTC)", p.start))
         .y_desc("Critical speed, r/min")
-        .x_label_formatter(&|v| format!("{v:.0}"))
+        .x_label_formatter(&|v| format!("{v:.decimals$}"))
         .y_label_formatter(&|v| format!("{v:.0}"))
         .label_style((FONT, 14).into_font().color(&INK))
         .axis_desc_style((FONT, 15).into_font().color(&INK))
