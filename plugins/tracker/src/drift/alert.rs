@@ -281,18 +281,25 @@ impl DriftAlert {
             }
         };
         // Only a trend towards the range counts; a trend away leaves the present bound.
+        let now = judge(present);
         let projected = projected.map(|(nn, slope)| {
             let closer = if toward_lower {
                 nn < present
             } else {
                 nn > present
             };
-            (judge(if closer { nn } else { present }), slope)
+            let mut b = judge(if closer { nn } else { present });
+            // A projection that passes right through the range lands on its far side with a
+            // margin measured from the far end: it has crossed the range, a breach all the same.
+            if b.side != now.side {
+                b.breach = true;
+            }
+            (b, slope)
         });
         Judgement::Assessed(Assessment {
             critical_rpm: e.natural_rpm * self.peak_factor,
             sigma_rpm: e.sigma_rpm * self.peak_factor,
-            present: judge(present),
+            present: now,
             projected: projected.map(|p| p.0),
             slope_rpm_per_s: projected.map(|p| p.1 * self.peak_factor),
             horizon_s: self.cfg.horizon_s,

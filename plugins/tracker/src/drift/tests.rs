@@ -383,3 +383,51 @@ fn damping_error_biases_the_lag_inversion_as_predicted() {
         );
     }
 }
+
+#[test]
+fn a_projection_through_the_whole_range_is_a_breach() {
+    use super::{Change, Estimate, Judgement, Method};
+    let cfg = DriftAlertConfig {
+        range: OperatingRange::new(1380.0, 1460.0).expect("valid range"),
+        rule: MarginRule::Api2005,
+        af: Some(5.0),
+        horizon_s: 3.0 * 3600.0,
+        trend_window_s: 3.0 * 3600.0,
+        sigmas: 0.0,
+        persistence: 1,
+    };
+    let mut alert = DriftAlert::with_critical_factor(cfg, 1.0).expect("valid");
+    // Falling 5 r/min per minute from 2000 r/min: in three hours the line is at 1000 r/min,
+    // 27.5 % below the range, which a margin measured from the low end alone would call clear.
+    let mut last = None;
+    for i in 0..=100 {
+        let t = f64::from(i) * 60.0;
+        let nn = 2000.0 - 5.0 * f64::from(i);
+        let e = Estimate {
+            time_s: t,
+            rpm: 1450.0,
+            revolutions: 1450,
+            natural_rpm: nn,
+            sigma_rpm: 2.0,
+            ratio: 1450.0 / nn,
+            informative: true,
+            reason: None,
+            method: Method::Phase,
+            by_phase: Some(nn),
+            by_amplitude: None,
+            sensitivity_deg_per_pct: 1.0,
+            locus_residual: 0.0,
+            change: Change::NaturalSpeed,
+            vector: Complex64::new(1.0, 0.0),
+        };
+        last = Some(alert.judge(&e));
+    }
+    let Some(Judgement::Assessed(a)) = last else {
+        panic!("expected an assessment, got {last:?}");
+    };
+    // Present: 1500 r/min, 2.7 % above the range: already a breach; the projection crosses.
+    let p = a.projected.expect("a projection after 100 min of history");
+    assert_eq!(p.side, Side::Below, "{p:?}");
+    assert!(p.actual_pct > p.required_pct, "{p:?}");
+    assert!(p.breach, "{p:?}");
+}
