@@ -105,7 +105,7 @@ fn estimate_row(r: &Row<'_>) -> rusqlite::Result<Stored<EstimateRow>> {
     })
 }
 
-const MODEL_COLS: &str = "critical_id, natural_rpm, damping_ratio, modal_amplitude, \
+const MODEL_COLS: &str = "critical_id, track, natural_rpm, damping_ratio, modal_amplitude, \
      modal_phase_deg, background_amplitude, background_phase_deg, slow_roll_amplitude, \
      slow_roll_phase_deg, fit_residual";
 
@@ -123,12 +123,13 @@ fn model_row_at(r: &Row<'_>, at: usize) -> rusqlite::Result<ModelRow> {
     };
     Ok(ModelRow {
         critical_id: r.get(at)?,
-        natural_rpm: r.get(at + 1)?,
-        damping_ratio: r.get(at + 2)?,
-        modal: polar(3)?,
-        background: polar(5)?,
-        slow_roll: polar(7)?,
-        fit_residual: r.get(at + 9)?,
+        track: r.get(at + 1)?,
+        natural_rpm: r.get(at + 2)?,
+        damping_ratio: r.get(at + 3)?,
+        modal: polar(4)?,
+        background: polar(6)?,
+        slow_roll: polar(8)?,
+        fit_residual: r.get(at + 10)?,
     })
 }
 
@@ -657,8 +658,9 @@ impl Tx<'_> {
             .map_err(self.sql(OP))
     }
 
-    /// The models a machine's live estimates start from: for each channel and mode, the latest
-    /// measured critical that has a model, with that model, by channel then mode.
+    /// The models a machine's live estimates start from: for each track (a mode followed from
+    /// event to event, see [`ModelRow::track`]), the latest measured critical that has a model,
+    /// with that model, oldest first.
     pub fn latest_models(
         &self,
         machine: &str,
@@ -677,10 +679,9 @@ impl Tx<'_> {
             "SELECT {ccols}, {mcols} FROM critical c JOIN critical_model m ON m.critical_id = c.id
              WHERE c.machine = ?1 AND c.id = (
                SELECT c2.id FROM critical c2 JOIN critical_model m2 ON m2.critical_id = c2.id
-               WHERE c2.machine = c.machine AND c2.mode = c.mode
-                 AND c2.channel IS c.channel AND c2.origin = 'measured'
+               WHERE c2.machine = c.machine AND m2.track = m.track AND c2.origin = 'measured'
                ORDER BY c2.valid_from DESC, c2.id DESC LIMIT 1)
-             ORDER BY c.channel, c.mode"
+             ORDER BY c.valid_from, c.id"
         );
         let n = CRITICAL_COLS.split(", ").count();
         self.collect("read the latest critical models", &sql, [machine], |r| {

@@ -435,6 +435,10 @@ pub struct EstimateRow {
 pub struct ModelRow {
     /// The critical-table row it models.
     pub critical_id: i64,
+    /// The name its live estimates and their alerts go by (`x:1`): kept by the models of the same
+    /// mode from event to event, which an event's mode numbers are not (a run-up that misses the
+    /// first mode numbers the second 1).
+    pub track: String,
     /// Natural speed of the mode when it was fitted, r/min.
     pub natural_rpm: f64,
     /// Damping ratio.

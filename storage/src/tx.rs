@@ -538,14 +538,15 @@ impl<'a> Tx<'a> {
         const OP: &str = "insert a critical's model";
         self.conn
             .prepare_cached(
-                "INSERT OR REPLACE INTO critical_model (critical_id, natural_rpm, damping_ratio,
-                   modal_amplitude, modal_phase_deg, background_amplitude, background_phase_deg,
-                   slow_roll_amplitude, slow_roll_phase_deg, fit_residual)
-                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10)",
+                "INSERT OR REPLACE INTO critical_model (critical_id, track, natural_rpm,
+                   damping_ratio, modal_amplitude, modal_phase_deg, background_amplitude,
+                   background_phase_deg, slow_roll_amplitude, slow_roll_phase_deg, fit_residual)
+                 VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
             )
             .and_then(|mut st| {
                 st.execute(params![
                     m.critical_id,
+                    m.track,
                     m.natural_rpm,
                     m.damping_ratio,
                     m.modal.amplitude,

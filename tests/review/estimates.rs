@@ -185,6 +185,7 @@ fn build(dir: &Dir) -> Db {
         store
             .insert_model(&ModelRow {
                 critical_id: c,
+                track: if c == cx { "x:1" } else { "y:1" }.to_string(),
                 natural_rpm: 1395.0,
                 damping_ratio: 0.062,
                 modal: Polar {

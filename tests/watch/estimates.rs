@@ -450,6 +450,11 @@ fn a_design_critical_is_estimated_from_the_wander_without_a_run_up() {
     let truth = |t: f64| NATURAL_START_RPM + (end_rpm - NATURAL_START_RPM) * (t - T0) / total;
     for e in &informative {
         assert_eq!(e.method.as_deref(), Some("slope"), "{e:?}");
+        assert_eq!(
+            (e.change.as_deref(), e.locus_residual),
+            (None, None),
+            "no model, no locus"
+        );
         assert_eq!(e.channel.as_deref(), Some("v"), "{e:?}");
         let nn = e.natural_rpm.expect("natural speed");
         let err = nn / truth(e.time) - 1.0;
@@ -478,5 +483,18 @@ fn a_design_critical_is_estimated_from_the_wander_without_a_run_up() {
     assert!(
         (actual - (latest.estimate_rpm / MAX_RPM - 1.0) * 100.0).abs() < 0.01,
         "{doc}"
+    );
+    // `veer margins` reviews them too, and plots them.
+    let doc = d.json(&["margins", "--db", "veer.db", "fan-7", "--json"]);
+    let blocks = doc["live_estimates"].as_array().expect("live_estimates");
+    assert_eq!(blocks.len(), 1, "{doc}");
+    assert_eq!(blocks[0]["origin"], "design", "{doc}");
+    assert_eq!(blocks[0]["informative"], informative.len(), "{doc}");
+    let o = d.veer(&["margins", "--db", "veer.db", "fan-7", "--plot", "est.svg"]);
+    assert!(o.status.success(), "{}", crate::support::shown(&o));
+    let svg = std::fs::read_to_string(d.join("est.svg")).expect("the plot");
+    assert!(
+        svg.contains("configured critical"),
+        "no reference line label"
     );
 }

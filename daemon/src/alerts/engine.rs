@@ -3,7 +3,7 @@
 use super::debounce::{Debounce, Step};
 use super::describe::{Describe, Note};
 use super::drift::{self, DriftFinding};
-use super::estimate::{ApproachFinding, VectorChangeFinding};
+use super::estimate::{ApproachFinding, EstimateInput, VectorChangeFinding};
 use super::health::{self, ChannelHealth, Role};
 use super::level::{multiplier_applies, LevelFinding, Levels};
 use super::margin::MarginFinding;
@@ -13,7 +13,7 @@ use super::{Alert, AlertChange, AlertKind, HealthProblem, KnownCritical};
 use crate::config::model::{Alerts, Severity};
 use serde_json::json;
 use std::collections::{BTreeMap, HashMap};
-use veer_tracker::drift::{DriftAlert, DriftAlertConfig, Estimate, Judgement};
+use veer_tracker::drift::{Change, DriftAlert, DriftAlertConfig, Judgement, NotInformative};
 use veer_tracker::margin::{MarginRule, OperatingRange};
 use veer_tracker::states::MachineState;
 
@@ -87,7 +87,7 @@ impl AlertEngine {
             } else {
                 1.0
             },
-            estimate_trend_min: finite_or(alerts.estimate_trend_min, 60.0).max(1.0),
+            estimate_trend_min: finite_or(alerts.estimate_trend_min, 60.0),
             estimate_sigmas: finite_or(alerts.estimate_sigmas, 2.0).max(0.0),
         };
         let sensors = sensors
@@ -119,10 +119,16 @@ impl AlertEngine {
     }
 
     /// Starts the estimate rule of a tracked critical `key`, or restarts it with a new model
-    /// (after a new event): its trend starts afresh, and a vector-change alert of the old model
-    /// is cleared, since the new model is fitted on the vector as it now is. `critical_factor` is
-    /// the measured critical over the fitted natural speed.
-    pub fn track_critical(&mut self, key: &str, critical_factor: f64, af: Option<f64>) {
+    /// (`refit`: after a new event): its trend starts afresh, and on a refit a vector-change alert
+    /// of the old model is cleared, since the new model is fitted on the vector as it now is.
+    /// `critical_factor` is the critical over the natural speed.
+    pub fn track_critical(
+        &mut self,
+        key: &str,
+        critical_factor: f64,
+        af: Option<f64>,
+        refit: bool,
+    ) {
         let s = self.settings;
         let cfg = DriftAlertConfig {
             range: self.range,
@@ -139,10 +145,10 @@ impl AlertEngine {
             }
             Err(e) => {
                 tracing::warn!(machine = %self.machine, critical = key, error = %e, "critical not estimated");
-                self.estimates.remove(key);
+                self.untrack_critical(key, "nothing (its model cannot be used)");
             }
         }
-        if self.is_open(AlertKind::VectorChange, key) {
+        if refit && self.is_open(AlertKind::VectorChange, key) {
             let note = super::describe::Note {
                 message: format!(
                     "cleared: a new run-up or coast-down refitted the model of critical {key}"
@@ -154,6 +160,64 @@ impl AlertEngine {
                 self.pending.push(change);
             }
         }
+    }
+
+    /// Takes back an estimate alert a previous run left open (kind by name, key, severity, when
+    /// it was raised), so that it clears when its condition does; `false` for the kinds of the
+    /// other rules, which find theirs again in the data.
+    pub fn restore(&mut self, kind: &str, key: &str, severity: Severity, opened_at: f64) -> bool {
+        let kind = match kind {
+            k if k == AlertKind::CriticalApproach.name() => AlertKind::CriticalApproach,
+            k if k == AlertKind::VectorChange.name() => AlertKind::VectorChange,
+            _ => return false,
+        };
+        let _ = self.timer(kind, key).force(opened_at, severity);
+        let alert = Alert {
+            machine: self.machine.clone(),
+            kind,
+            key: key.to_string(),
+            severity,
+            time_s: opened_at,
+            message: format!("{} left open by an earlier run", kind.name()),
+            evidence: json!({ "key": key, "restored": true }),
+        };
+        self.open.insert(
+            (kind, key.to_string()),
+            Open {
+                alert,
+                raised_s: opened_at,
+            },
+        );
+        true
+    }
+
+    /// Clears the open estimate alerts of keys no rule estimates (after a restart: a critical no
+    /// longer tracked, a configured one a measured one now stands for).
+    pub fn clear_untracked(&mut self) -> Vec<AlertChange> {
+        let stale: Vec<(AlertKind, String)> = self
+            .open
+            .keys()
+            .filter(|(kind, key)| {
+                matches!(kind, AlertKind::CriticalApproach | AlertKind::VectorChange)
+                    && !self.estimates.contains_key(key)
+            })
+            .cloned()
+            .collect();
+        let t = self.last_time_s.max(
+            self.open
+                .values()
+                .map(|o| o.raised_s)
+                .fold(f64::NEG_INFINITY, f64::max),
+        );
+        let mut out = std::mem::take(&mut self.pending);
+        for (kind, key) in stale {
+            let note = Note {
+                message: format!("cleared: critical {key} is no longer estimated"),
+                evidence: json!({ "key": key, "untracked": true }),
+            };
+            out.extend(self.force_clear(kind, &key, t, &note));
+        }
+        out
     }
 
     /// Stops the estimate rule of `key` (a configured critical that a measured one now stands
@@ -176,20 +240,12 @@ impl AlertEngine {
         }
     }
 
-    /// One window's live estimate of tracked critical `key` (measured at `measured_rpm` with
-    /// `af` by its event), with what the event's model predicts at the window's speed, for the
-    /// vector-change evidence.
-    pub fn on_estimate(
-        &mut self,
-        key: &str,
-        channel: &str,
-        measured_rpm: f64,
-        af: Option<f64>,
-        e: &Estimate,
-        expected: veer_tracker::Complex64,
-    ) -> Vec<AlertChange> {
+    /// One window's live estimate of a tracked critical.
+    pub fn on_estimate(&mut self, input: &EstimateInput<'_>) -> Vec<AlertChange> {
+        let e = input.estimate;
+        let key = input.key;
         let mut out = self.begin(e.time_s);
-        if self.suspended(channel) || self.tach_suspended() {
+        if self.suspended(input.channel) || self.tach_suspended() {
             return out;
         }
         let Some(rule) = self.estimates.get_mut(key) else {
@@ -197,6 +253,7 @@ impl AlertEngine {
         };
         let judgement = rule.judge(e);
         let s = self.settings;
+        let expected = input.expected;
         let vc = VectorChangeFinding {
             key: key.to_string(),
             speed_rpm: e.rpm,
@@ -220,15 +277,51 @@ impl AlertEngine {
                     out.extend(self.judge(AlertKind::VectorChange, key, t, raw, false, &vc));
                 }
             }
-            Judgement::NotInformative => {}
+            Judgement::NotInformative => {
+                // A window that says nothing of the critical can still show the vector back on
+                // the model's locus, unless it was not steady or outside the model altogether.
+                let judged_locus = !matches!(
+                    e.reason,
+                    Some(NotInformative::NotSteady | NotInformative::OutsideModel)
+                );
+                if e.change != Change::Unbalance && judged_locus {
+                    for t in [t0, t1] {
+                        out.extend(self.judge(AlertKind::VectorChange, key, t, None, true, &vc));
+                    }
+                }
+                // Too far from resonance for the lag to place the critical means the critical is
+                // far from the running speed (r below about 0.65 or above 1.6): beyond any
+                // required margin (at most 26 %), so an approach alert has recovered.
+                if e.reason == Some(NotInformative::TooFarFromResonance) {
+                    let note = Note {
+                        message: format!(
+                            "cleared: critical {key} is far from the running speed of {:.0} r/min (speed ratio {:.2}): the 1X lag no longer moves with it",
+                            e.rpm, e.ratio
+                        ),
+                        evidence: json!({ "key": key, "speed_rpm": e.rpm, "speed_ratio": e.ratio,
+                                          "reason": "too-far-from-resonance" }),
+                    };
+                    for t in [t0, t1] {
+                        out.extend(self.judge(
+                            AlertKind::CriticalApproach,
+                            key,
+                            t,
+                            None,
+                            true,
+                            &note,
+                        ));
+                    }
+                }
+            }
             Judgement::Assessed(a) => {
                 for t in [t0, t1] {
                     out.extend(self.judge(AlertKind::VectorChange, key, t, None, true, &vc));
                 }
                 let f = ApproachFinding {
                     key: key.to_string(),
-                    measured_rpm,
-                    af,
+                    known_rpm: input.known_rpm,
+                    configured: input.configured,
+                    af: input.af,
                     speed_rpm: e.rpm,
                     a,
                     rule: s.rule.name(),

@@ -15,16 +15,38 @@ use super::margin::{af_text, side_name};
 use super::severity_name;
 use crate::config::model::Severity;
 use serde_json::{json, Value};
-use veer_tracker::drift::{Assessment, Bound};
+use veer_tracker::drift::{Assessment, Bound, Estimate};
 use veer_tracker::margin::Side;
+use veer_tracker::Complex64;
+
+/// One window's estimate of a tracked critical, with what the rules need to know of it.
+pub(crate) struct EstimateInput<'a> {
+    /// The key of its alerts (`x:1`, `x:design-1`).
+    pub key: &'a str,
+    /// Channel of the vectors.
+    pub channel: &'a str,
+    /// The critical's speed as known before the estimates (measured by its event, or
+    /// configured), r/min.
+    pub known_rpm: f64,
+    /// Whether that speed is a configured one (design, shop test) rather than measured.
+    pub configured: bool,
+    /// Its AF.
+    pub af: Option<f64>,
+    /// The window's estimate.
+    pub estimate: &'a Estimate,
+    /// The 1X vector the event's model predicts at the window's speed (zero without a model).
+    pub expected: Complex64,
+}
 
 /// An estimate of a critical judged against the margin.
 #[derive(Clone, Debug, PartialEq)]
 pub(super) struct ApproachFinding {
     /// Channel and mode of the critical (`x:1`).
     pub key: String,
-    /// The critical as its event measured it, r/min.
-    pub measured_rpm: f64,
+    /// The critical as known before the estimates, r/min.
+    pub known_rpm: f64,
+    /// Whether that is a configured speed rather than a measured one.
+    pub configured: bool,
     /// Its AF.
     pub af: Option<f64>,
     /// Running speed over the window, r/min.
@@ -72,12 +94,13 @@ impl ApproachFinding {
     pub fn message(&self, severity: Severity) -> String {
         let a = &self.a;
         let now = format!(
-            "critical {} estimated at {:.0} ± {:.0} r/min at {:.0} r/min running (measured {:.0} r/min, {})",
+            "critical {} estimated at {:.0} ± {:.0} r/min at {:.0} r/min running ({} {:.0} r/min, {})",
             self.key,
             a.critical_rpm,
             a.sigma_rpm,
             self.speed_rpm,
-            self.measured_rpm,
+            if self.configured { "configured" } else { "measured" },
+            self.known_rpm,
             af_text(self.af)
         );
         match severity {
@@ -121,7 +144,8 @@ impl ApproachFinding {
             "uncertainty_rpm": a.sigma_rpm,
             "sigmas": a.sigmas,
             "speed_rpm": self.speed_rpm,
-            "measured_rpm": self.measured_rpm,
+            "known_rpm": self.known_rpm,
+            "known_from": if self.configured { "configured" } else { "measured" },
             "af": self.af,
             "rule": self.rule,
             "present": bound(&a.present),

@@ -46,6 +46,7 @@ mod time;
 mod tests;
 
 pub(crate) use engine::AlertEngine;
+pub(crate) use estimate::EstimateInput;
 pub(crate) use outputs::deliver;
 
 use crate::config::model::Severity;

@@ -806,12 +806,25 @@ fn window(
     }
 }
 
+/// The input of one window of the critical `x:1` measured at `NC` with AF `AF`.
+fn input(est: &veer_tracker::drift::Estimate) -> EstimateInput<'_> {
+    EstimateInput {
+        key: "x:1",
+        channel: "x",
+        known_rpm: NC,
+        configured: false,
+        af: Some(AF),
+        estimate: est,
+        expected: est.vector,
+    }
+}
+
 #[test]
 fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_change_does_neither() {
     use veer_tracker::drift::Change;
     let s = settings();
     let mut e = engine_with(&s);
-    e.track_critical("x:1", 1.0, Some(AF));
+    e.track_critical("x:1", 1.0, Some(AF), false);
     // Required above the range: 24.4 % for AF 8 (recomputed); the critical enters it at
     // 3000 × 1.244 = 3731 r/min.
     let boundary = 3000.0 * (1.0 + required_above(AF) / 100.0);
@@ -822,7 +835,7 @@ fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_chan
     let mut t = 0.0;
     while t < 4.0 * 3600.0 {
         let est = window(T0 + t, truth(t), sigma, Change::NaturalSpeed);
-        changes.extend(e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector));
+        changes.extend(e.on_estimate(&input(&est)));
         t += 30.0;
     }
     let approach = of_kind(&changes, AlertKind::CriticalApproach);
@@ -858,9 +871,19 @@ fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_chan
     assert!(alarm[0].evidence["present"]["breach"].as_bool() == Some(true));
     assert!(of_kind(&changes, AlertKind::VectorChange).is_empty());
 
+    // Slowed far below the critical, the lag no longer places it: the approach alarm recovers.
+    let mut far = window(T0 + 5.0 * 3600.0, truth(4.0 * 3600.0), sigma, Change::None);
+    far.informative = false;
+    far.reason = Some(veer_tracker::drift::NotInformative::TooFarFromResonance);
+    let after = e.on_estimate(&input(&far));
+    assert!(
+        matches!(of_kind(&after, AlertKind::CriticalApproach).as_slice(), [AlertChange::Cleared(a)] if a.message.contains("far from the running speed")),
+        "{after:?}"
+    );
+
     // The same critical unmoved, with the unbalance turned: vector change, no approach.
     let mut e = engine_with(&s);
-    e.track_critical("x:1", 1.0, Some(AF));
+    e.track_critical("x:1", 1.0, Some(AF), false);
     let mut changes = Vec::new();
     for i in 0..200 {
         let t = f64::from(i) * 30.0;
@@ -870,7 +893,7 @@ fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_chan
             Change::Unbalance
         };
         let est = window(T0 + t, 4200.0, sigma, change);
-        changes.extend(e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector));
+        changes.extend(e.on_estimate(&input(&est)));
     }
     assert!(of_kind(&changes, AlertKind::CriticalApproach).is_empty());
     assert!(of_kind(&changes, AlertKind::CriticalShift).is_empty());
@@ -879,13 +902,63 @@ fn a_critical_estimated_closing_in_warns_ahead_then_alarms_and_an_unbalance_chan
     assert!(matches!(vc[0], AlertChange::Raised(_)));
     assert!(vc[0].alert().time_s >= T0 + 100.0 * 30.0);
     assert!(vc[0].alert().message.contains("not a critical shift"));
-    // A new run-up refits the model: the vector change clears with the next input.
-    e.track_critical("x:1", 1.0, Some(AF));
-    let est = window(T0 + 6000.0, 4200.0, sigma, Change::None);
-    let after = e.on_estimate("x:1", "x", NC, Some(AF), &est, est.vector);
-    let cleared = of_kind(&after, AlertKind::VectorChange);
+    // A new run-up refits the model: the vector change clears with the next input, first, even
+    // when that input is off the new model's locus too (and raises it afresh on its own).
+    e.track_critical("x:1", 1.0, Some(AF), true);
+    let est = window(T0 + 6000.0, 4200.0, sigma, Change::Unbalance);
+    let after = e.on_estimate(&input(&est));
+    let changes = of_kind(&after, AlertKind::VectorChange);
     assert!(
-        matches!(cleared.as_slice(), [AlertChange::Cleared(_)]),
+        matches!(changes.first(), Some(AlertChange::Cleared(a)) if a.message.contains("refitted")),
         "{after:?}"
     );
+    assert!(
+        matches!(changes.get(1), Some(AlertChange::Raised(_))),
+        "{after:?}"
+    );
+    // Far from resonance the lag says nothing of the critical, but a vector back on the locus
+    // clears the change, and an approach alert recovers: the critical is far from the speed.
+    let mut far = window(T0 + 6100.0, 4200.0, sigma, Change::None);
+    far.informative = false;
+    far.reason = Some(veer_tracker::drift::NotInformative::TooFarFromResonance);
+    let after = e.on_estimate(&input(&far));
+    assert!(
+        matches!(
+            of_kind(&after, AlertKind::VectorChange).as_slice(),
+            [AlertChange::Cleared(_)]
+        ),
+        "{after:?}"
+    );
+}
+
+#[test]
+fn estimate_alerts_left_open_by_an_earlier_run_are_taken_back_and_can_clear() {
+    use veer_tracker::drift::Change;
+    let mut e = engine_with(&settings());
+    assert!(e.restore("vector-change", "x:1", Severity::Warning, T0));
+    assert!(e.restore("critical-approach", "x:9", Severity::Alarm, T0));
+    assert!(
+        !e.restore("margin", "design-1", Severity::Warning, T0),
+        "found again in the data"
+    );
+    // Reloading the model after the restart is not a refit: the vector change stays open...
+    e.track_critical("x:1", 1.0, Some(AF), false);
+    let cleared = e.clear_untracked();
+    // ... and the approach alert of a critical nothing estimates any more is closed.
+    assert!(
+        matches!(cleared.as_slice(), [AlertChange::Cleared(a)] if a.key == "x:9" && a.kind == AlertKind::CriticalApproach),
+        "{cleared:?}"
+    );
+    assert_eq!(e.open_alerts().len(), 1);
+    // A window back on the locus clears the vector change as it would have before the restart.
+    let est = window(T0 + 60.0, 4200.0, 10.0, Change::None);
+    let after = e.on_estimate(&input(&est));
+    assert!(
+        matches!(
+            of_kind(&after, AlertKind::VectorChange).as_slice(),
+            [AlertChange::Cleared(_)]
+        ),
+        "{after:?}"
+    );
+    assert!(e.open_alerts().is_empty());
 }

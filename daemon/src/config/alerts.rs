@@ -69,12 +69,12 @@ pub(super) fn alerts(c: &Checker, k: &KeyPath, a: RawAlerts) -> Result<Alerts> {
         3600.0,
         "must be between 1 and 3600 s",
     )?;
-    c.above(
+    c.within(
         &k.key("estimate_trend_min"),
         a.estimate_trend_min,
-        0.0,
+        1.0,
         525_600.0,
-        "must be a positive number of minutes",
+        "must be at least 1 minute",
     )?;
     c.within(
         &k.key("estimate_sigmas"),

@@ -23,9 +23,15 @@ const MAX_FIT_RESIDUAL: f64 = 0.1;
 /// term the estimates' errors were some six times their stated σ.
 pub(crate) const DAMPING_MODEL_PCT: f64 = 3.0;
 
+/// A critical this close to another (percent of its speed) on the same channel is taken to be the
+/// same mode: the bound the shift rule also uses to match criticals.
+pub(crate) const SAME_MODE_PCT: f64 = 25.0;
+
 /// One measured critical with its fitted model.
 #[derive(Clone, Debug, PartialEq)]
 pub(crate) struct TrackedModel {
+    /// The name its estimates and alerts go by (`x:1`), kept from model to model of one mode.
+    pub track: String,
     /// Channel the critical was found on.
     pub channel: String,
     /// Its mode number on that channel (1 for the lowest).
@@ -43,9 +49,14 @@ pub(crate) struct TrackedModel {
 }
 
 impl TrackedModel {
-    /// The key alerts of this critical's estimates carry: `channel:mode`.
+    /// The key alerts of this critical's estimates carry: its track.
     pub fn key(&self) -> String {
-        format!("{}:{}", self.channel, self.mode)
+        self.track.clone()
+    }
+
+    /// Relative distance of this critical's speed from `rpm`, percent.
+    pub fn distance_pct(&self, rpm: f64) -> f64 {
+        ((self.critical_rpm - rpm) / rpm * 100.0).abs()
     }
 
     /// The measured critical over the fitted natural speed: estimates of the natural speed are
@@ -58,6 +69,7 @@ impl TrackedModel {
     pub fn row(&self, critical_id: i64) -> ModelRow {
         ModelRow {
             critical_id,
+            track: self.track.clone(),
             natural_rpm: self.model.natural_rpm,
             damping_ratio: self.model.damping_ratio,
             modal: polar(self.model.modal_vector),
@@ -79,6 +91,7 @@ impl TrackedModel {
         };
         model.validate().ok()?;
         Some(Self {
+            track: m.track.clone(),
             channel: c.channel.clone()?,
             mode: c.mode,
             valid_from: c.valid_from,
@@ -106,6 +119,7 @@ pub(crate) fn models_of(ev: &Event, t0_unix: f64) -> Vec<TrackedModel> {
                 continue;
             };
             out.push(TrackedModel {
+                track: format!("{}:{}", c.name, i + 1),
                 channel: c.name.clone(),
                 mode: i as u32 + 1,
                 valid_from: t0_unix + ev.end_s,
@@ -117,4 +131,100 @@ pub(crate) fn models_of(ev: &Event, t0_unix: f64) -> Vec<TrackedModel> {
         }
     }
     out
+}
+
+/// Gives each of an event's `new` models the track of the `current` model of the same mode: on
+/// the same channel, nearest in critical speed within [`SAME_MODE_PCT`], each current model taken
+/// by one new model at most (closest pairs first). A mode not tracked yet keeps `channel:mode`,
+/// or the next free number on its channel if a remaining track has that name.
+pub(crate) fn assign_tracks(current: &[TrackedModel], new: &mut [TrackedModel]) {
+    let mut pairs: Vec<(f64, usize, usize)> = Vec::new();
+    for (i, n) in new.iter().enumerate() {
+        for (j, c) in current.iter().enumerate() {
+            let d = c.distance_pct(n.critical_rpm);
+            if c.channel == n.channel && d <= SAME_MODE_PCT {
+                pairs.push((d, i, j));
+            }
+        }
+    }
+    pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut given: Vec<Option<String>> = vec![None; new.len()];
+    let mut taken = vec![false; current.len()];
+    for (_, i, j) in pairs {
+        if given[i].is_none() && !taken[j] {
+            given[i] = Some(current[j].track.clone());
+            taken[j] = true;
+        }
+    }
+    // Names still in use: the current tracks no new model continues, and those just given.
+    let mut used: Vec<String> = current
+        .iter()
+        .zip(&taken)
+        .filter(|(_, t)| !**t)
+        .map(|(c, _)| c.track.clone())
+        .chain(given.iter().flatten().cloned())
+        .collect();
+    for (n, g) in new.iter_mut().zip(given) {
+        n.track = match g {
+            Some(t) => t,
+            None => {
+                let mut k = n.mode;
+                let mut name = format!("{}:{k}", n.channel);
+                while used.contains(&name) {
+                    k += 1;
+                    name = format!("{}:{k}", n.channel);
+                }
+                used.push(name.clone());
+                name
+            }
+        };
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn model(channel: &str, mode: u32, critical_rpm: f64, track: &str) -> TrackedModel {
+        TrackedModel {
+            track: track.to_string(),
+            channel: channel.to_string(),
+            mode,
+            valid_from: 0.0,
+            critical_rpm,
+            af: Some(5.0),
+            model: CriticalModel {
+                natural_rpm: critical_rpm,
+                damping_ratio: 0.1,
+                modal_vector: Complex64::new(10.0, 0.0),
+                background: Complex64::new(0.0, 0.0),
+                slow_roll: Complex64::new(0.0, 0.0),
+            },
+            fit_residual: None,
+        }
+    }
+
+    #[test]
+    fn a_mode_keeps_its_track_whatever_the_event_numbers_it() {
+        let current = [
+            model("x", 1, 1200.0, "x:1"),
+            model("x", 2, 2400.0, "x:2"),
+            model("y", 1, 1210.0, "y:1"),
+        ];
+        // A run-up that missed the first mode numbers the second 1, and finds a new one.
+        let mut new = [
+            model("x", 1, 2380.0, ""),
+            model("x", 2, 3600.0, ""),
+            model("y", 1, 1190.0, ""),
+        ];
+        assign_tracks(&current, &mut new);
+        let tracks: Vec<&str> = new.iter().map(|m| m.track.as_str()).collect();
+        // 3600 is 50 % from 2400: a new mode, numbered past the names x still uses (x:1, x:2).
+        assert_eq!(tracks, ["x:2", "x:3", "y:1"]);
+        // Two new criticals near one old one: the nearer continues it, the other is new.
+        let mut two = [model("x", 1, 1300.0, ""), model("x", 2, 1210.0, "")];
+        assign_tracks(&current[..1], &mut two);
+        let tracks: Vec<&str> = two.iter().map(|m| m.track.as_str()).collect();
+        assert_eq!(tracks, ["x:2", "x:1"]);
+    }
 }

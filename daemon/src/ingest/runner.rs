@@ -7,8 +7,8 @@
 
 use super::convert::{event_record, polar, EventRecord};
 use super::health::{ChannelHealth, Condition};
-use super::models::TrackedModel;
-use super::targets::{design_tracks, Target, Tracker};
+use super::models::{assign_tracks, TrackedModel};
+use super::targets::{design_for, design_tracks, DesignTrack, Target, Tracker};
 use crate::config::model::Machine;
 use anyhow::{anyhow, Result};
 use veer_storage::TrendRow;
@@ -111,6 +111,9 @@ pub(crate) struct Runner {
     /// estimates off).
     trackers: Vec<Tracker>,
     estimate_window_s: Option<f64>,
+    /// Channels whose data cannot be trusted now (flat, clipping, not finite): no estimate is
+    /// made from them, so none is stored as if it were sound.
+    unhealthy: Vec<bool>,
 }
 
 impl Runner {
@@ -129,6 +132,7 @@ impl Runner {
         let mut engine = Engine::new(cfg, sample_rate, 0.0).map_err(|e| anyhow!("{e}"))?;
         engine.set_emit_revolutions(true);
         let window = sample_rate.round() as usize;
+        let n_channels = channels.len();
         let estimate_window_s = machine
             .alerts
             .estimate_critical
@@ -156,13 +160,19 @@ impl Runner {
             fs: sample_rate,
             trackers: Vec::new(),
             estimate_window_s,
+            unhealthy: vec![false; n_channels],
         };
         if let Some(window_s) = runner.estimate_window_s {
-            for d in design_tracks(machine) {
-                let target = Target::Design(d);
-                if models.iter().any(|m| target.superseded_by(m)) {
+            let designs = design_tracks(machine);
+            let claimed: Vec<&DesignTrack> = models
+                .iter()
+                .filter_map(|m| design_for(&designs, m))
+                .collect();
+            for d in &designs {
+                if claimed.contains(&d) {
                     continue;
                 }
+                let target = Target::Design(d.clone());
                 let Some(c) = runner.channels.iter().position(|n| n == target.channel()) else {
                     continue;
                 };
@@ -175,9 +185,20 @@ impl Runner {
         Ok(runner)
     }
 
-    /// Starts (or restarts) the estimators of `models`, each replacing the tracker of its channel
-    /// and mode (and the slope tracker of a configured critical it stands for); models of
-    /// channels this runner does not have are left out.
+    /// The models the trackers follow now.
+    fn current_models(&self) -> Vec<TrackedModel> {
+        self.trackers
+            .iter()
+            .filter_map(|t| match &t.target {
+                Target::Model(m) => Some(m.clone()),
+                Target::Design(_) => None,
+            })
+            .collect()
+    }
+
+    /// Starts (or restarts) the estimators of `models`, each replacing the tracker of its track
+    /// and the slope tracker of the configured critical it stands for; models of channels this
+    /// runner does not have are left out.
     fn track(&mut self, models: &[TrackedModel]) {
         let Some(window_s) = self.estimate_window_s else {
             return;
@@ -186,7 +207,18 @@ impl Runner {
             let Some(c) = self.channels.iter().position(|n| *n == m.channel) else {
                 continue;
             };
-            self.trackers.retain(|t| !t.target.superseded_by(m));
+            let design = design_for(
+                self.trackers.iter().filter_map(|t| match &t.target {
+                    Target::Design(d) => Some(d),
+                    Target::Model(_) => None,
+                }),
+                m,
+            )
+            .cloned();
+            self.trackers.retain(|t| {
+                !t.target.continued_by(m)
+                    && !matches!((&t.target, &design), (Target::Design(d), Some(x)) if d == x)
+            });
             if let Some(t) = Tracker::new(Target::Model(m.clone()), c, window_s) {
                 self.trackers.push(t);
             }
@@ -220,6 +252,7 @@ impl Runner {
                 }
             }
             for change in self.health[c].push(x) {
+                self.unhealthy[c] = change.is_some();
                 out.push(Observation::Health {
                     time_s: block_start,
                     channel: self.channels[c].clone(),
@@ -256,7 +289,8 @@ impl Runner {
                     });
                 }
                 Update::Event(e) => {
-                    let rec = event_record(&self.machine, &e, self.t0_unix);
+                    let mut rec = event_record(&self.machine, &e, self.t0_unix);
+                    assign_tracks(&self.current_models(), &mut rec.models);
                     self.track(&rec.models);
                     out.push(Observation::Event(Box::new(rec)));
                 }
@@ -329,6 +363,15 @@ impl Runner {
             if let Some(k1) = self.orders.iter().position(|&o| o == 1) {
                 let k = self.orders.len();
                 for tr in &mut self.trackers {
+                    if self
+                        .unhealthy
+                        .get(tr.channel_index)
+                        .copied()
+                        .unwrap_or(true)
+                    {
+                        tr.reset();
+                        continue;
+                    }
                     let v = r.vectors[tr.channel_index * k + k1];
                     if let Some(estimate) = tr.push(t, r.speed_rpm, v) {
                         out.push(Observation::Estimate {

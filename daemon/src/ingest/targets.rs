@@ -8,16 +8,11 @@
 //! speed the critical lies on. The slope estimate is dropped on a channel once a run-up there has
 //! measured a critical near it: the model's estimate is far more precise.
 
-use super::models::{TrackedModel, DAMPING_MODEL_PCT};
+use super::models::{TrackedModel, DAMPING_MODEL_PCT, SAME_MODE_PCT};
 use crate::config::model::Machine;
 use veer_tracker::drift::{Estimate, Estimator, EstimatorConfig, SlopeConfig, SlopeEstimator};
 use veer_tracker::margin::{actual_margin_pct, Side};
 use veer_tracker::Complex64;
-
-/// A configured critical this close to a measured one (percent of its speed) is taken to be the
-/// same mode: the measured one's model then stands for it (the same bound the shift rule uses to
-/// match criticals).
-const SAME_MODE_PCT: f64 = 25.0;
 
 /// Length of a slope window, s: it must hold several cycles of the speed's wander.
 const SLOPE_WINDOW_S: f64 = 600.0;
@@ -79,6 +74,18 @@ pub(crate) fn design_tracks(machine: &Machine) -> Vec<DesignTrack> {
     out
 }
 
+/// The one configured critical among `designs` that the measured model `m` stands for: on its
+/// channel, the nearest in speed within [`SAME_MODE_PCT`].
+pub(crate) fn design_for<'a>(
+    designs: impl IntoIterator<Item = &'a DesignTrack>,
+    m: &TrackedModel,
+) -> Option<&'a DesignTrack> {
+    designs
+        .into_iter()
+        .filter(|d| d.channel == m.channel && m.distance_pct(d.rpm) <= SAME_MODE_PCT)
+        .min_by(|a, b| m.distance_pct(a.rpm).total_cmp(&m.distance_pct(b.rpm)))
+}
+
 /// What an estimate is about.
 #[derive(Clone, Debug, PartialEq)]
 pub(crate) enum Target {
@@ -138,16 +145,9 @@ impl Target {
         }
     }
 
-    /// Whether a measured model `m` stands for this target (the same one, or a configured
-    /// critical of the same mode on the same channel).
-    pub fn superseded_by(&self, m: &TrackedModel) -> bool {
-        match self {
-            Target::Model(t) => t.channel == m.channel && t.mode == m.mode,
-            Target::Design(d) => {
-                d.channel == m.channel
-                    && ((m.critical_rpm - d.rpm) / d.rpm * 100.0).abs() <= SAME_MODE_PCT
-            }
-        }
+    /// Whether a measured model `m` continues this target: the same track.
+    pub fn continued_by(&self, m: &TrackedModel) -> bool {
+        matches!(self, Target::Model(t) if t.track == m.track)
     }
 }
 

@@ -375,6 +375,7 @@ pub(crate) fn live_blocks(
                 "mode": s.mode,
                 "channel": s.channel,
                 "event": a.event_id,
+                "origin": if a.event_id.is_some() { "measured" } else { "design" },
                 "measured_rpm": r(a.row.speed_rpm, 1),
                 "amplification_factor": ro(af, 2),
                 "model": model.map(|m| json!({"natural_rpm": r(m.natural_rpm, 1), "damping_ratio": r(m.damping_ratio, 4)})),
@@ -619,16 +620,18 @@ fn live_text(s: &mut String, blocks: &[Value]) {
     }
     let _ = writeln!(
         s,
-        "\nlive critical-speed estimates (1X phase and amplitude at steady speed, single-mode model of the event):"
+        "\nlive critical-speed estimates (at steady speed: measured criticals from the 1X phase and amplitude with their event's single-mode model, configured ones from the slope of the phase against the speed's wander):"
     );
     for b in blocks {
+        let known = match b["event"].as_i64() {
+            Some(ev) => format!("measured {} r/min in event {ev}", fv(&b["measured_rpm"], 0)),
+            None => format!("configured {} r/min", fv(&b["measured_rpm"], 0)),
+        };
         let _ = writeln!(
             s,
-            "  mode {} channel {} (measured {} r/min in event {}): {} estimates, {} informative, {} unbalance (1X vector change, not a critical shift)",
+            "  mode {} channel {} ({known}): {} estimates, {} informative, {} unbalance (1X vector change, not a critical shift)",
             b["mode"],
             b["channel"].as_str().unwrap_or("?"),
-            fv(&b["measured_rpm"], 0),
-            b["event"],
             b["estimates"],
             b["informative"],
             b["unbalance"]

@@ -7,14 +7,14 @@
 //! logged with the machine and the input, and the worker goes on with the next job.
 
 use super::writer::{EstimateRecord, FileResult, Record, WriterTx};
-use crate::alerts::{AlertChange, AlertEngine, HealthProblem, KnownCritical};
+use crate::alerts::{AlertChange, AlertEngine, EstimateInput, HealthProblem, KnownCritical};
 use crate::config::model::{DaemonSettings, Machine, Source};
 use crate::decode::Recording;
 use crate::ingest::convert::EventRecord;
 use crate::ingest::health::Condition;
 use crate::ingest::models::TrackedModel;
 use crate::ingest::runner::{Observation, Runner};
-use crate::ingest::targets::{design_tracks, Target};
+use crate::ingest::targets::{design_for, design_tracks, Target};
 use crate::ingest::types::StreamEvent;
 use crate::timefmt;
 use anyhow::{anyhow, Context, Result};
@@ -84,6 +84,14 @@ fn known_criticals(m: &Machine) -> Vec<KnownCritical> {
             baseline_rpm: None,
         })
         .collect()
+}
+
+/// A stored severity as the rules name it.
+fn severity_of(s: veer_storage::Severity) -> crate::config::model::Severity {
+    match s {
+        veer_storage::Severity::Warning => crate::config::model::Severity::Warning,
+        veer_storage::Severity::Alarm => crate::config::model::Severity::Alarm,
+    }
 }
 
 fn condition_problem(c: Condition) -> HealthProblem {
@@ -158,7 +166,7 @@ impl Worker {
         if machine.alerts.estimate_critical {
             for d in design_tracks(&machine) {
                 let t = Target::Design(d);
-                alerts.track_critical(&t.key(), t.critical_factor(), t.af());
+                alerts.track_critical(&t.key(), t.critical_factor(), t.af(), false);
             }
         }
         Self {
@@ -174,20 +182,19 @@ impl Worker {
         }
     }
 
-    /// Puts `m` in force for its channel and mode (replacing an older model) and starts its
-    /// estimate rule.
-    fn adopt_model(&mut self, m: &TrackedModel) {
-        self.models
-            .retain(|k| !(k.channel == m.channel && k.mode == m.mode));
+    /// Puts `m` in force for its track (replacing the older model of its mode) and starts its
+    /// estimate rule (`refit`: a new event fitted it, rather than a restart reloading it); the
+    /// configured critical it stands for stops being estimated by the slope.
+    fn adopt_model(&mut self, m: &TrackedModel, refit: bool) {
+        self.models.retain(|k| k.track != m.track);
         self.models.push(m.clone());
-        for d in design_tracks(&self.machine) {
-            let t = Target::Design(d);
-            if t.superseded_by(m) {
-                self.alerts.untrack_critical(&t.key(), &m.key());
-            }
+        let designs = design_tracks(&self.machine);
+        if let Some(d) = design_for(&designs, m) {
+            let key = Target::Design(d.clone()).key();
+            self.alerts.untrack_critical(&key, &m.key());
         }
         self.alerts
-            .track_critical(&m.key(), m.critical_factor(), m.af);
+            .track_critical(&m.key(), m.critical_factor(), m.af, refit);
     }
 
     /// After a restart the live estimates resume from the models stored with the measured
@@ -208,7 +215,7 @@ impl Worker {
             return;
         }
         for m in rx.blocking_recv().unwrap_or_default() {
-            self.adopt_model(&m);
+            self.adopt_model(&m, false);
         }
     }
 
@@ -217,6 +224,9 @@ impl Worker {
         self.load_carried_over();
         self.load_measured();
         self.load_models();
+        // An estimate alert left open for a critical nothing estimates any more is closed.
+        let ch = self.alerts.clear_untracked();
+        self.alert_changes(ch);
         while let Some(job) = jobs.blocking_recv() {
             match job {
                 Job::File(path) => {
@@ -270,7 +280,17 @@ impl Worker {
             })
             .is_ok()
         {
-            self.carried_over = rx.blocking_recv().unwrap_or_default();
+            for (kind, key, severity, opened_at) in rx.blocking_recv().unwrap_or_default() {
+                // The estimate rules take their open alerts back, so that they can clear them;
+                // the other rules meet theirs again in the data.
+                if self
+                    .alerts
+                    .restore(&kind, &key, severity_of(severity), opened_at)
+                {
+                    continue;
+                }
+                self.carried_over.push((kind, key, severity));
+            }
         }
     }
 
@@ -343,20 +363,22 @@ impl Worker {
                     self.follow_measured(&found);
                     if self.machine.alerts.estimate_critical {
                         for m in &rec.models {
-                            self.adopt_model(m);
+                            self.adopt_model(m, true);
                         }
                     }
                     into.events.push(*rec);
                 }
                 Observation::Estimate { target, estimate } => {
-                    let ch = self.alerts.on_estimate(
-                        &target.key(),
-                        target.channel(),
-                        target.critical_rpm(),
-                        target.af(),
-                        &estimate,
-                        target.expected(estimate.rpm),
-                    );
+                    let key = target.key();
+                    let ch = self.alerts.on_estimate(&EstimateInput {
+                        key: &key,
+                        channel: target.channel(),
+                        known_rpm: target.critical_rpm(),
+                        configured: matches!(*target, Target::Design(_)),
+                        af: target.af(),
+                        estimate: &estimate,
+                        expected: target.expected(estimate.rpm),
+                    });
                     self.alert_changes(ch);
                     into.estimates
                         .push(EstimateRecord::new(&self.machine.id, &target, &estimate));

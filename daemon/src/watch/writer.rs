@@ -74,6 +74,7 @@ impl EstimateRecord {
             Target::Design(d) => CriticalRef::Design { mode: d.mode },
         };
         let estimate_rpm = e.natural_rpm * factor;
+        let by_model = matches!(target, Target::Model(_));
         Self {
             machine: machine.to_string(),
             critical,
@@ -95,8 +96,9 @@ impl EstimateRecord {
                 speed_ratio: finite(e.ratio),
                 method: Some(e.method.name().to_string()),
                 reason: e.reason.map(|r| r.name().to_string()),
-                change: Some(e.change.name().to_string()),
-                locus_residual: finite(e.locus_residual),
+                // The slope measures no vector against a model: it says nothing of the locus.
+                change: by_model.then(|| e.change.name().to_string()),
+                locus_residual: finite(e.locus_residual).filter(|_| by_model),
                 revolutions: Some(e.revolutions as u64),
             },
         }
@@ -166,10 +168,10 @@ pub(crate) enum Record {
         machine: String,
         reply: oneshot::Sender<Vec<StoredCritical>>,
     },
-    /// The alerts of a machine still open in the database: kind, key, severity.
+    /// The alerts of a machine still open in the database: kind, key, severity, opened at.
     OpenAlerts {
         machine: String,
-        reply: oneshot::Sender<Vec<(String, String, Severity)>>,
+        reply: oneshot::Sender<Vec<(String, String, Severity, f64)>>,
     },
 }
 
@@ -463,7 +465,7 @@ fn apply(store: &mut Store, alerts: &mut HashMap<AlertId, OpenAlert>, msg: Recor
             let open = alerts
                 .iter()
                 .filter(|((m, _, _), _)| *m == machine)
-                .map(|((_, kind, key), a)| (kind.clone(), key.clone(), a.severity))
+                .map(|((_, kind, key), a)| (kind.clone(), key.clone(), a.severity, a.opened_at))
                 .collect();
             let _ = reply.send(open);
         }

@@ -3,6 +3,7 @@
 
 CREATE TABLE critical_model (
     critical_id          INTEGER PRIMARY KEY REFERENCES critical(id) ON DELETE CASCADE,
+    track                TEXT NOT NULL,
     natural_rpm          REAL NOT NULL CHECK (natural_rpm > 0),
     damping_ratio        REAL NOT NULL CHECK (damping_ratio > 0 AND damping_ratio < 1),
     modal_amplitude      REAL NOT NULL CHECK (modal_amplitude > 0),

@@ -365,6 +365,7 @@ fn critical_models_and_estimate_lookup() {
     let y = s.add_critical(&crit("y", 1, 1885.0, 900.0)).expect("y");
     let model = |critical_id: i64, natural_rpm: f64| ModelRow {
         critical_id,
+        track: if critical_id == y { "y:1" } else { "x:1" }.to_string(),
         natural_rpm,
         damping_ratio: 0.1,
         modal: Polar {

@@ -40,18 +40,19 @@ const GAP_FACTOR: f64 = 10.0;
 /// shift (docs/critical-estimate.md §4).
 pub(crate) const UNBALANCE: &str = "unbalance";
 
-/// A measured critical whose estimates a series holds.
+/// A critical whose estimates a series holds: measured (estimated with its event's model) or
+/// configured (estimated from the slope of the lag against the speed's wander).
 #[derive(Clone, Debug)]
 pub(crate) struct Anchor {
     /// Its critical-table row id.
     pub critical_id: i64,
-    /// The event it was measured in.
-    pub event_id: i64,
+    /// The event it was measured in; `None` for a configured critical.
+    pub event_id: Option<i64>,
     /// The row itself.
     pub row: CriticalRow,
 }
 
-/// The estimates of one mode on one channel, of one or more measured criticals (a new run-up
+/// The estimates of one mode on one channel, of one or more criticals (a new run-up
 /// gives a new critical and a new model; its estimates carry the series on).
 #[derive(Clone, Debug)]
 pub(crate) struct EstimateSeries {
@@ -80,41 +81,60 @@ pub(crate) fn counts(r: &EstimateRow) -> bool {
     r.informative && r.change.as_deref() != Some(UNBALANCE)
 }
 
-/// Reads a machine's estimates of the measured criticals `keep` accepts, grouped by mode and
-/// channel. Estimates of a design row (there should be none) are left out: the plot is about
-/// what was measured.
+/// Reads a machine's estimates of the criticals `keep` accepts, grouped into series: a measured
+/// critical's by the track its model follows the mode by (so the models of successive events
+/// carry one line on), a configured critical's by channel.
 pub(crate) fn load(
     store: &Store,
     machine: &str,
     keep: impl Fn(&CriticalRow) -> bool,
 ) -> Result<Vec<EstimateSeries>> {
-    let criticals: BTreeMap<i64, Anchor> = store
-        .criticals(machine)
-        .map_err(se)?
-        .into_iter()
-        .filter_map(|c| match c.origin {
-            CriticalOrigin::Measured { event_id } if keep(&c.row) => Some((
-                c.id,
+    let mut criticals: BTreeMap<i64, (Anchor, Option<String>)> = BTreeMap::new();
+    for c in store.criticals(machine).map_err(se)? {
+        if !keep(&c.row) {
+            continue;
+        }
+        let event_id = match c.origin {
+            CriticalOrigin::Measured { event_id } => Some(event_id),
+            CriticalOrigin::Design => None,
+        };
+        let track = match event_id {
+            Some(_) => store.model(c.id).map_err(se)?.map(|m| m.track),
+            None => None,
+        };
+        criticals.insert(
+            c.id,
+            (
                 Anchor {
                     critical_id: c.id,
                     event_id,
                     row: c.row,
                 },
-            )),
-            _ => None,
-        })
-        .collect();
-    let mut by_series: BTreeMap<(u32, String), EstimateSeries> = BTreeMap::new();
+                track,
+            ),
+        );
+    }
+    let mut by_series: BTreeMap<(u32, String, String), EstimateSeries> = BTreeMap::new();
     for e in store
         .machine_estimates(machine, f64::MIN, f64::MAX)
         .map_err(se)?
     {
-        let Some(a) = criticals.get(&e.critical_id) else {
+        let Some((a, track)) = criticals.get(&e.critical_id) else {
             continue;
         };
-        let channel = a.row.channel.clone().unwrap_or_else(|| "-".to_string());
+        let channel = e
+            .row
+            .channel
+            .clone()
+            .or_else(|| a.row.channel.clone())
+            .unwrap_or_else(|| "-".to_string());
+        let name = match (a.event_id, track) {
+            (Some(_), Some(t)) => t.clone(),
+            (Some(_), None) => format!("{channel}:{}", a.row.mode),
+            (None, _) => format!("{channel}:design-{}", a.row.mode),
+        };
         let s = by_series
-            .entry((a.row.mode, channel.clone()))
+            .entry((a.row.mode, channel.clone(), name))
             .or_insert_with(|| EstimateSeries {
                 mode: a.row.mode,
                 channel,
@@ -240,7 +260,7 @@ pub(crate) fn render(
         .reduce(f64::min)
     else {
         bail!(
-            "machine {}: no live critical-speed estimates to plot (they are made at steady speed once a run-up or coast-down has given a critical with a fitted model)",
+            "machine {}: no live critical-speed estimates to plot (they are made at steady speed, for a critical measured by a run-up or coast-down with a fitted model, or a configured one with an AF)",
             machine.id
         );
     };
@@ -354,8 +374,11 @@ where
             x1,
             y: a.row.speed_rpm,
             label: format!(
-                "measured critical, event {}: {} r/min{}",
-                a.event_id,
+                "{}: {} r/min{}",
+                a.event_id
+                    .map_or("configured critical".to_string(), |id| format!(
+                        "measured critical, event {id}"
+                    )),
                 super::bode::rpm_text(a.row.speed_rpm),
                 a.row
                     .amplification_factor
@@ -579,7 +602,7 @@ where
     let counted = s.rows.iter().filter(|r| counts(r)).count();
     foot.draw(&Text::new(
         format!(
-            "{total} windows, {counted} informative. Estimate: the 1X amplitude peak, from the steady 1X phase (and amplitude) and the event's single-mode model."
+            "{total} windows, {counted} informative. Estimate: the 1X amplitude peak, from the steady 1X phase (and amplitude) and the event's single-mode model, or for a configured critical from the slope of the phase against the speed's wander."
         ),
         (84, 44),
         font.clone(),
