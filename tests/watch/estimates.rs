@@ -103,6 +103,16 @@ fn required_above_pct(af: f64) -> f64 {
     (10.0 + 17.0 * (1.0 - 1.0 / (af - 1.5))).min(26.0)
 }
 
+/// The machine's alerts, oldest first.
+fn alerts(store: &Store) -> Vec<AlertRow> {
+    store
+        .alerts_since(0.0, Some("fan-7"))
+        .expect("alerts")
+        .into_iter()
+        .map(|a| a.row)
+        .collect()
+}
+
 /// The estimates of the machine, oldest first.
 fn estimates(store: &Store) -> Vec<EstimateRow> {
     store
@@ -237,12 +247,7 @@ fn a_drifting_critical_is_tracked_across_a_restart_and_alerted_before_it_enters_
     let peak = 1.0 / (1.0 - 2.0 * FAN_ZETA * FAN_ZETA).sqrt();
     let crossing =
         T0 + (NATURAL_START_RPM - boundary / peak) / (NATURAL_START_RPM - end_rpm) * total;
-    let alerts: Vec<AlertRow> = store
-        .alerts_since(0.0, Some("fan-7"))
-        .expect("alerts")
-        .into_iter()
-        .map(|a| a.row)
-        .collect();
+    let alerts = alerts(&store);
     let approach: Vec<&AlertRow> = alerts
         .iter()
         .filter(|a| a.kind == "critical-approach")
@@ -335,12 +340,7 @@ fn a_turn_of_the_unbalance_is_a_vector_change_not_a_critical_alert() {
         assert!(!e.informative, "{e:?}");
         assert_eq!(e.reason.as_deref(), Some("off-locus"), "{e:?}");
     }
-    let alerts: Vec<AlertRow> = store
-        .alerts_since(0.0, Some("fan-7"))
-        .expect("alerts")
-        .into_iter()
-        .map(|a| a.row)
-        .collect();
+    let alerts = alerts(&store);
     let kinds: Vec<&str> = alerts.iter().map(|a| a.kind.as_str()).collect();
     assert_eq!(kinds, ["vector-change"], "{alerts:#?}");
     let vc = &alerts[0];

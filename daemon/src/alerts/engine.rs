@@ -148,17 +148,14 @@ impl AlertEngine {
                 self.untrack_critical(key, "nothing (its model cannot be used)");
             }
         }
-        if refit && self.is_open(AlertKind::VectorChange, key) {
-            let note = super::describe::Note {
+        if refit {
+            let note = Note {
                 message: format!(
                     "cleared: a new run-up or coast-down refitted the model of critical {key}"
                 ),
                 evidence: json!({ "key": key, "refitted": true }),
             };
-            let t = self.last_time_s;
-            if let Some(change) = self.force_clear(AlertKind::VectorChange, key, t, &note) {
-                self.pending.push(change);
-            }
+            self.clear_later(AlertKind::VectorChange, key, &note);
         }
     }
 
@@ -226,18 +223,13 @@ impl AlertEngine {
         if self.estimates.remove(key).is_none() {
             return;
         }
-        if self.is_open(AlertKind::CriticalApproach, key) {
-            let note = super::describe::Note {
-                message: format!(
-                    "cleared: critical {key} is now estimated as the measured critical {by}"
-                ),
-                evidence: json!({ "key": key, "superseded_by": by }),
-            };
-            let t = self.last_time_s;
-            if let Some(change) = self.force_clear(AlertKind::CriticalApproach, key, t, &note) {
-                self.pending.push(change);
-            }
-        }
+        let note = Note {
+            message: format!(
+                "cleared: critical {key} is now estimated as the measured critical {by}"
+            ),
+            evidence: json!({ "key": key, "superseded_by": by }),
+        };
+        self.clear_later(AlertKind::CriticalApproach, key, &note);
     }
 
     /// One window's live estimate of a tracked critical.
@@ -699,6 +691,14 @@ impl AlertEngine {
         let step = timer.update(t, raw, recovered, delay)?;
         let onset = timer.onset();
         Some(self.record(kind, key, t, step, onset, d))
+    }
+
+    /// Clears an open alert now, the change coming out with the next input's changes.
+    fn clear_later(&mut self, kind: AlertKind, key: &str, note: &Note) {
+        let t = self.last_time_s;
+        if let Some(change) = self.force_clear(kind, key, t, note) {
+            self.pending.push(change);
+        }
     }
 
     fn force_clear(
