@@ -1,8 +1,9 @@
 //! Critical approach and 1X vector change: the rules fed by the live estimates of a critical.
 //!
 //! Between run-ups each measured critical is estimated at steady speed from the 1X vector and its
-//! single-mode model ([`veer_tracker::drift`]). Its alert rule ([`DriftAlert::judge`]) fits the
-//! informative estimates' trend and holds two pessimistic bounds to the required separation
+//! single-mode model ([`veer_tracker::drift`]); a configured one, from the slope of the lag
+//! against the speed's wander. Its alert rule ([`veer_tracker::drift::DriftAlert::judge`]) fits
+//! the informative estimates' trend and holds two pessimistic bounds to the required separation
 //! margin: the present estimate moved `estimate_sigmas` standard deviations towards the operating
 //! range, and the trend projected `drift_horizon_min` ahead, moved the same way. A present bound
 //! in breach is an alarm (the critical is, within its uncertainty, already too close); a
