@@ -9,7 +9,9 @@ use super::convert::polar;
 use veer_storage::{CriticalRow, ModelRow, Polar, Stored};
 use veer_tracker::drift::CriticalModel;
 use veer_tracker::engine::Event;
-use veer_tracker::{from_amp_lag, Complex64};
+use veer_tracker::resonance::fit_mode;
+use veer_tracker::units::{to_displacement_um, SensorKind, Unit};
+use veer_tracker::{from_amp_lag, Complex64, ResponsePoint};
 
 /// A fit whose rms residual exceeds this share of its peak does not describe its mode well enough
 /// to be inverted: the same bound the resonance analysis uses to prefer a fit over the half-power
@@ -103,19 +105,53 @@ impl TrackedModel {
     }
 }
 
+/// A 1X vector of a channel in `unit` at `rpm` in the form the model is made in: as it is for a
+/// displacement channel, the displacement (µm peak) for a velocity or acceleration one, whose 1X
+/// vector is jω (or −ω²) times the displacement's (standard identities; REFERENCES §7) and so
+/// does not have the single-mode unbalance response's shape. `None` at zero speed.
+pub(crate) fn model_form(v: Complex64, unit: Unit, rpm: f64) -> Option<Complex64> {
+    match unit.kind() {
+        SensorKind::Displacement => Some(v),
+        SensorKind::Velocity | SensorKind::Acceleration => to_displacement_um(v, unit, 1.0, rpm),
+    }
+}
+
 /// The models an event's good fits give, one per critical found: channel, mode as numbered in
 /// the event's critical rows.
+///
+/// On a displacement channel the model is the event's own fit, on the slow-roll compensated
+/// response. On a velocity or acceleration channel the response is first turned into the
+/// displacement and fitted again (no slow roll is subtracted: a casing transducer sees no
+/// runout), so that the model has the shape it assumes; the live vectors are turned the same way.
 pub(crate) fn models_of(ev: &Event, t0_unix: f64) -> Vec<TrackedModel> {
     let mut out = Vec::new();
     for c in &ev.channels {
+        let unit = c.amplitude.unit;
         let slow_roll = c.slow_roll.map_or(Complex64::new(0.0, 0.0), |s| s.vector);
+        let converted: Option<Vec<ResponsePoint>> =
+            (unit.kind() != SensorKind::Displacement).then(|| {
+                c.response
+                    .iter()
+                    .filter_map(|p| {
+                        model_form(p.vector, unit, p.speed_rpm)
+                            .map(|vector| ResponsePoint { vector, ..*p })
+                    })
+                    .collect()
+            });
         for (i, cr) in c.criticals.iter().enumerate() {
             let r = &cr.resonance;
-            let Some(fit) = r.fit.as_ref() else { continue };
+            let (fit, sr) = match &converted {
+                None => (r.fit.clone(), slow_roll),
+                Some(points) => (
+                    fit_mode(points, r.speed_rpm, r.damping_ratio.unwrap_or(0.05)),
+                    Complex64::new(0.0, 0.0),
+                ),
+            };
+            let Some(fit) = fit else { continue };
             if !(fit.rms_residual <= MAX_FIT_RESIDUAL) {
                 continue;
             }
-            let Ok(model) = CriticalModel::from_fit(fit, slow_roll) else {
+            let Ok(model) = CriticalModel::from_fit(&fit, sr) else {
                 continue;
             };
             out.push(TrackedModel {

@@ -114,6 +114,8 @@ pub(crate) struct Runner {
     /// Channels whose data cannot be trusted now (flat, clipping, not finite): no estimate is
     /// made from them, so none is stored as if it were sound.
     unhealthy: Vec<bool>,
+    /// Each channel's unit: a model of a velocity or acceleration channel is in displacement.
+    units: Vec<veer_tracker::units::Unit>,
 }
 
 impl Runner {
@@ -129,6 +131,7 @@ impl Runner {
         let cfg = machine.engine_config().map_err(|e| anyhow!("{e}"))?;
         let orders = cfg.vectors.orders.clone();
         let channels: Vec<String> = cfg.channels.iter().map(|c| c.name.clone()).collect();
+        let units = cfg.channels.iter().map(|c| c.amplitude.unit).collect();
         let mut engine = Engine::new(cfg, sample_rate, 0.0).map_err(|e| anyhow!("{e}"))?;
         engine.set_emit_revolutions(true);
         let window = sample_rate.round() as usize;
@@ -161,6 +164,7 @@ impl Runner {
             trackers: Vec::new(),
             estimate_window_s,
             unhealthy: vec![false; n_channels],
+            units,
         };
         if let Some(window_s) = runner.estimate_window_s {
             let designs = design_tracks(machine);
@@ -372,7 +376,11 @@ impl Runner {
                         tr.reset();
                         continue;
                     }
-                    let v = r.vectors[tr.channel_index * k + k1];
+                    let raw = r.vectors[tr.channel_index * k + k1];
+                    let unit = self.units[tr.channel_index];
+                    let Some(v) = tr.vector_form(raw, unit, r.speed_rpm) else {
+                        continue;
+                    };
                     if let Some(estimate) = tr.push(t, r.speed_rpm, v) {
                         out.push(Observation::Estimate {
                             target: Box::new(tr.target.clone()),

@@ -8,10 +8,11 @@
 //! speed the critical lies on. The slope estimate is dropped on a channel once a run-up there has
 //! measured a critical near it: the model's estimate is far more precise.
 
-use super::models::{TrackedModel, DAMPING_MODEL_PCT, SAME_MODE_PCT};
+use super::models::{model_form, TrackedModel, DAMPING_MODEL_PCT, SAME_MODE_PCT};
 use crate::config::model::Machine;
 use veer_tracker::drift::{Estimate, Estimator, EstimatorConfig, SlopeConfig, SlopeEstimator};
 use veer_tracker::margin::{actual_margin_pct, Side};
+use veer_tracker::units::Unit;
 use veer_tracker::Complex64;
 
 /// Length of a slope window, s: it must hold several cycles of the speed's wander.
@@ -196,7 +197,17 @@ impl Tracker {
         })
     }
 
-    /// One steady revolution (time unix s, speed r/min, raw 1X vector).
+    /// A revolution's raw 1X vector of a channel in `unit` as this tracker takes it: a model
+    /// in the model's form ([`model_form`]); the slope as it is, since turning velocity into
+    /// displacement adds a constant 90° to the lag, which its slope does not see.
+    pub fn vector_form(&self, v: Complex64, unit: Unit, rpm: f64) -> Option<Complex64> {
+        match self.method {
+            Method::Model(_) => model_form(v, unit, rpm),
+            Method::Slope(_) => Some(v),
+        }
+    }
+
+    /// One steady revolution (time unix s, speed r/min, 1X vector in [`Self::vector_form`]).
     pub fn push(&mut self, time_s: f64, rpm: f64, v: Complex64) -> Option<Estimate> {
         match &mut self.method {
             Method::Model(e) => e.push(time_s, rpm, v),
