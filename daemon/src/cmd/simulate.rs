@@ -10,40 +10,38 @@ use std::io::Write;
 use std::path::Path;
 use veer_tracker::sim::{SimChannel, SimConfig, Simulator, SpeedProfile, TachSim, Tone};
 
+/// Parses `A<sep>B` of option `option` into two numbers, naming each part (`names`) in errors.
+fn parse_pair(
+    option: &str,
+    s: &str,
+    sep: char,
+    form: &str,
+    names: [&str; 2],
+) -> Result<(f64, f64)> {
+    let (a, b) = s
+        .split_once(sep)
+        .ok_or_else(|| anyhow!("{option}: `{s}` is not {form}"))?;
+    let num = |x: &str, name: &str| -> Result<f64> {
+        x.trim()
+            .parse()
+            .with_context(|| format!("{option}: {name} `{x}`"))
+    };
+    Ok((num(a, names[0])?, num(b, names[1])?))
+}
+
 /// Parses `T:RPM,T:RPM,...`.
 fn parse_profile(s: &str) -> Result<SpeedProfile> {
-    let mut points = Vec::new();
-    for part in s.split(',') {
-        let (t, v) = part
-            .split_once(':')
-            .ok_or_else(|| anyhow!("--profile: `{part}` is not TIME:RPM"))?;
-        let t: f64 = t
-            .trim()
-            .parse()
-            .with_context(|| format!("--profile: time `{t}`"))?;
-        let v: f64 = v
-            .trim()
-            .parse()
-            .with_context(|| format!("--profile: speed `{v}`"))?;
-        points.push((t, v));
-    }
+    let points = s
+        .split(',')
+        .map(|part| parse_pair("--profile", part, ':', "TIME:RPM", ["time", "speed"]))
+        .collect::<Result<Vec<_>>>()?;
     SpeedProfile::new(points).map_err(|e| anyhow!("--profile: {e}"))
 }
 
 /// Parses `DEG@SECONDS` of `--unbalance-turn` into `(seconds, degrees)`, the order of
 /// [`veer_tracker::sim::SimMode::heavy_spot_step`].
 fn parse_unbalance_turn(s: &str) -> Result<(f64, f64)> {
-    let (deg, secs) = s
-        .split_once('@')
-        .ok_or_else(|| anyhow!("--unbalance-turn: `{s}` is not DEG@SECONDS"))?;
-    let deg: f64 = deg
-        .trim()
-        .parse()
-        .with_context(|| format!("--unbalance-turn: angle `{deg}`"))?;
-    let secs: f64 = secs
-        .trim()
-        .parse()
-        .with_context(|| format!("--unbalance-turn: time `{secs}`"))?;
+    let (deg, secs) = parse_pair("--unbalance-turn", s, '@', "DEG@SECONDS", ["angle", "time"])?;
     if !deg.is_finite() {
         bail!("--unbalance-turn: angle `{deg}` must be finite");
     }
