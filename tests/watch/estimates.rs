@@ -71,6 +71,25 @@ fn duration_s(hold_s: u32) -> f64 {
     f64::from(200 + hold_s.div_ceil(30) * 30)
 }
 
+/// Simulates the fan into `name` through `profile` with its first mode's natural speed falling
+/// linearly from [`NATURAL_START_RPM`] to `end_rpm` over the recording.
+fn drifting(d: &Dir, name: &str, profile: &str, seed: u64, end_rpm: f64) {
+    let drift_pct = (end_rpm / NATURAL_START_RPM - 1.0) * 100.0;
+    recordings::fan(
+        d,
+        name,
+        profile,
+        RATE,
+        seed,
+        &[
+            "--natural-rpm",
+            &NATURAL_START_RPM.to_string(),
+            "--natural-drift-pct",
+            &drift_pct.to_string(),
+        ],
+    );
+}
+
 /// Copies frames `[from_s, to_s)` of the float WAV `src` into `dst`.
 fn cut_wav(src: &Path, dst: &Path, from_s: f64, to_s: f64) {
     let mut r = hound::WavReader::open(src).expect("open the simulated WAV");
@@ -172,20 +191,7 @@ fn a_drifting_critical_is_tracked_across_a_restart_and_alerted_before_it_enters_
     let hold = 2400;
     let total = duration_s(hold);
     let end_rpm = 1700.0;
-    let drift_pct = (end_rpm / NATURAL_START_RPM - 1.0) * 100.0;
-    recordings::fan(
-        &d,
-        "src.wav",
-        &profile(hold),
-        RATE,
-        21,
-        &[
-            "--natural-rpm",
-            &NATURAL_START_RPM.to_string(),
-            "--natural-drift-pct",
-            &drift_pct.to_string(),
-        ],
-    );
+    drifting(&d, "src.wav", &profile(hold), 21, end_rpm);
     let truth = |t: f64| NATURAL_START_RPM + (end_rpm - NATURAL_START_RPM) * (t - T0) / total;
     let config = write_config(&d, &[machine()]);
     // Two captures of 21 min 40 s; the daemon is restarted between them, so the second is
@@ -428,20 +434,7 @@ fn a_design_critical_is_estimated_from_the_wander_without_a_run_up() {
     }
     let total = 2430.0;
     let end_rpm = 1700.0;
-    let drift_pct = (end_rpm / NATURAL_START_RPM - 1.0) * 100.0;
-    recordings::fan(
-        &d,
-        "src.wav",
-        &p,
-        RATE,
-        23,
-        &[
-            "--natural-rpm",
-            &NATURAL_START_RPM.to_string(),
-            "--natural-drift-pct",
-            &drift_pct.to_string(),
-        ],
-    );
+    drifting(&d, "src.wav", &p, 23, end_rpm);
     // AF 6.5 as the simulated mode has (1/2ζ with ζ = 0.077); the design speed is its amplitude
     // peak at the start.
     let peak = 1.0 / (1.0 - 2.0 * FAN_ZETA * FAN_ZETA).sqrt();
@@ -534,20 +527,7 @@ fn a_velocity_pickup_is_tracked_through_the_displacement_it_measures() {
     let hold = 1200;
     let total = duration_s(hold);
     let end_rpm = 1780.0;
-    let drift_pct = (end_rpm / NATURAL_START_RPM - 1.0) * 100.0;
-    recordings::fan(
-        &d,
-        "disp.wav",
-        &profile(hold),
-        RATE,
-        24,
-        &[
-            "--natural-rpm",
-            &NATURAL_START_RPM.to_string(),
-            "--natural-drift-pct",
-            &drift_pct.to_string(),
-        ],
-    );
+    drifting(&d, "disp.wav", &profile(hold), 24, end_rpm);
     as_velocity(&d.join("disp.wav"), &d.join("src.wav"));
     let text = machine().replace(
         r#"kind = "displacement", units = "um""#,
